@@ -1,0 +1,27 @@
+"""cationcalc: carbocation stability from GFN2-xTB on a laptop CPU.
+
+Hydride-ion affinities, heterolysis energies and thermochemistry of
+carbocations and their precursors, each number computed (not looked up) and
+checked against published experiment.  The figures are screening estimates,
+not safety data.
+
+Thread counts of the numerical libraries are pinned to one per process before
+any engine is imported (parallelism is over molecules, one process per core);
+a user who sets OMP_NUM_THREADS themselves keeps their value.
+"""
+
+from __future__ import annotations
+
+import os as _os
+
+for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    _os.environ.setdefault(_var, "1")
+_os.environ.setdefault("OMP_STACKSIZE", "256M")
+
+__version__ = "0.1.0"
+
+SAFETY_NOTE = (
+    "Screening estimates from semi-empirical quantum chemistry, not safety data: alkyl halides "
+    "and sulfonates are alkylating agents, diazonium salts can detonate, superacids burn. Follow "
+    "the SDS, local rules and licensed practice."
+)
