@@ -1,0 +1,15 @@
+"""Shared fixtures: one engine and default settings for the whole test session."""
+
+import pytest
+
+from cationcalc.models import Settings
+
+
+@pytest.fixture(scope="session")
+def gas() -> Settings:
+    return Settings()
+
+
+@pytest.fixture(scope="session")
+def water() -> Settings:
+    return Settings(solvent="water")
