@@ -62,7 +62,8 @@ def _settings(args):
     if args.conformers is not None:
         conformer_options["max_conformers"] = args.conformers
     return Settings(engine=args.engine, solvent=args.solvent, temperature_k=args.temperature,
-                    conformers=ConformerSettings(**conformer_options), qrrho=not args.rrho)
+                    pressure_pa=args.pressure, conformers=ConformerSettings(**conformer_options),
+                    qrrho=not args.rrho, enantiomer_mixing=args.mix_enantiomers)
 
 
 COLUMNS = {
@@ -138,7 +139,11 @@ def build_parser() -> argparse.ArgumentParser:
         p.add_argument("--engine", default="tblite", choices=["tblite", "xtb"], help="GFN2-xTB implementation")
         p.add_argument("--temperature", type=float, default=298.15, help="temperature in K (default 298.15)")
         p.add_argument("--conformers", type=int, default=None, help="cap on embedded conformers per species")
+        p.add_argument("--pressure", type=float, default=101325.0,
+                       help="gas-phase standard pressure in Pa (default 101325 = 1 atm; 100000 = 1 bar)")
         p.add_argument("--rrho", action="store_true", help="plain RRHO instead of quasi-RRHO entropies")
+        p.add_argument("--mix-enantiomers", action="store_true",
+                       help="add the entropy of mixing R ln 2 for chiral species (default off)")
         p.add_argument("--workers", type=int, default=None, help="processes (default: one per core)")
         p.add_argument("--force", action="store_true", help="compute species above the size limit")
         out = p.add_mutually_exclusive_group()

@@ -81,6 +81,27 @@ class _Timer:
         return False
 
 
+class CachedEngineState:
+    """Options and cached library objects shared by the engine implementations.
+
+    The library calculator is kept while the atoms, charge, multiplicity and
+    solvent stay the same (``_key``), and the last SCF result seeds the next.
+    """
+
+    def __init__(self, max_iterations: int = 250, electronic_temperature_k: float = 300.0,
+                 accuracy: float = 1.0):
+        self.max_iterations = int(max_iterations)
+        self.electronic_temperature_k = float(electronic_temperature_k)
+        self.accuracy = float(accuracy)
+        self.counters = EngineCounters()
+        self._forget()
+
+    def _forget(self) -> None:
+        self._key = None
+        self._calc = None
+        self._restart = None
+
+
 class Engine(Protocol):
     """What every engine offers.  Implementations live in this package only."""
 

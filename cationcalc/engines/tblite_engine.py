@@ -26,7 +26,7 @@ import numpy as np
 
 from .. import units
 from .base import (
-    EngineCounters,
+    CachedEngineState,
     EngineError,
     EngineResult,
     SCFConvergenceError,
@@ -39,7 +39,7 @@ from .solvents import ALPB_NAMES, GBSA_NAMES
 _KELVIN_TO_HARTREE = units.BOLTZMANN_J_K / (units.HARTREE_EV * 1.602176634e-19)
 
 
-class TBLiteEngine:
+class TBLiteEngine(CachedEngineState):
     """GFN2-xTB from tblite; ALPB (default) or GBSA implicit solvent."""
 
     name = "tblite"
@@ -50,13 +50,7 @@ class TBLiteEngine:
         if solvent_model not in ("ALPB", "GBSA"):
             raise ValueError(f"solvent model {solvent_model!r}: tblite engine offers ALPB or GBSA")
         self.solvent_model = solvent_model
-        self.max_iterations = int(max_iterations)
-        self.electronic_temperature_k = float(electronic_temperature_k)
-        self.accuracy = float(accuracy)
-        self.counters = EngineCounters()
-        self._key = None
-        self._calc = None
-        self._restart = None
+        super().__init__(max_iterations, electronic_temperature_k, accuracy)
 
     def solvents(self) -> tuple[str, ...]:
         return tuple(sorted(ALPB_NAMES if self.solvent_model == "ALPB" else GBSA_NAMES))
@@ -146,9 +140,7 @@ class TBLiteEngine:
                 return res, f"converged at {hot:.0f} K, then re-converged at {base_t:.0f} K"
             except (TBLiteRuntimeError, RuntimeError) as exc:
                 last_error = exc
-        self._calc = None
-        self._key = None
-        self._restart = None
+        self._forget()
         raise SCFConvergenceError(
             f"GFN2-xTB SCF did not converge after the retry ladder (max {4 * self.max_iterations} "
             f"iterations, damped mixer, hot electronic temperatures): {last_error}"

@@ -22,11 +22,11 @@ from typing import Sequence
 import numpy as np
 
 from .. import units
-from .base import EngineCounters, EngineResult, SCFConvergenceError, UnknownSolventError, _Timer, check_finite
+from .base import CachedEngineState, EngineResult, SCFConvergenceError, UnknownSolventError, _Timer, check_finite
 from .solvents import GBSA_NAMES
 
 
-class XTBEngine:
+class XTBEngine(CachedEngineState):
     """GFN2-xTB from xtb-python (PyPI package ``xtb``); GBSA implicit solvent."""
 
     name = "xtb"
@@ -41,13 +41,7 @@ class XTBEngine:
             raise ImportError(
                 "engine 'xtb' needs xtb-python: pip install 'cationcalc[xtb]' (wheels exist up to Python 3.11)"
             ) from exc
-        self.max_iterations = int(max_iterations)
-        self.electronic_temperature_k = float(electronic_temperature_k)
-        self.accuracy = float(accuracy)
-        self.counters = EngineCounters()
-        self._key = None
-        self._calc = None
-        self._restart = None
+        super().__init__(max_iterations, electronic_temperature_k, accuracy)
 
     def solvents(self) -> tuple[str, ...]:
         return tuple(sorted(GBSA_NAMES))
@@ -89,7 +83,7 @@ class XTBEngine:
                 except XTBException as exc:
                     last = exc
             if res is None:
-                self._calc, self._key, self._restart = None, None, None
+                self._forget()
                 raise SCFConvergenceError(f"GFN2-xTB (xtb-python) SCF did not converge: {last}")
             self._restart = res
         if retry:
