@@ -91,6 +91,8 @@ class ConformerRecord(BaseModel):
     relative_energy_kcal_mol: float
     gibbs_kcal_mol: float | None = None
     weight: float = 0.0
+    #: 2 when this chiral conformer's mirror image (same G) is counted without being sampled
+    mirror_images: int = 1
     converged: bool = True
     bonding_changed: bool = False
     note: str = ""

@@ -58,6 +58,9 @@ class _Conformer:
     thermo: thermo.Thermochemistry | None = None
     frequencies_cm1: np.ndarray | None = None
     point_group: str = "C1"
+    chiral: bool = False
+    #: 2 when the conformer is chiral, the molecule is not, and its mirror image was not sampled
+    mirror_images: int = 1
     note: str = ""
 
 
@@ -83,6 +86,11 @@ def _is_duplicate(mol: Chem.Mol, a: _Conformer, b: _Conformer, numbers) -> bool:
     except Exception:
         return True
     return rmsd < 0.125
+
+
+def _mirrored(conf: _Conformer) -> _Conformer:
+    """The mirror image of a conformer (x → −x), same energy."""
+    return _Conformer(conf.opt, conf.change, conf.positions * np.array([-1.0, 1.0, 1.0]), conf.energy_ev)
 
 
 def _vibrate(conf: _Conformer, numbers, sp: Species, settings: Settings, engine: Engine,
@@ -139,6 +147,7 @@ def _vibrate(conf: _Conformer, numbers, sp: Species, settings: Settings, engine:
             vib = None
     group = point_group(numbers, conf.positions, settings.symmetry_tolerance_angstrom)
     conf.point_group = group.name
+    conf.chiral = group.is_chiral
     qrrho = thermo.QuasiRRHO(cutoff_cm1=settings.qrrho_cutoff_cm1, alpha=settings.qrrho_alpha,
                              average_moment_kg_m2=settings.qrrho_average_moment_kg_m2) if settings.qrrho else None
     conf.frequencies_cm1 = freqs
@@ -217,7 +226,15 @@ def compute_species(sp: Species, settings: Settings = Settings(), engine: Engine
     window.sort(key=lambda c: c.energy_ev)
     e_min = window[0].energy_ev
     g_kcal = np.array([c.energy_ev * units.EV_TO_KCAL_MOL + c.thermo.gibbs_correction_kcal_mol for c in window])
-    g_ens, weights = thermo.boltzmann_ensemble(g_kcal, settings.temperature_k)
+    # a chiral conformer of an achiral molecule has a mirror-image twin of equal G; count it
+    # when the sampling did not find it (gauche+ without gauche-, a P propeller without M)
+    if not _has_stereocentre(mol):
+        for c in window:
+            if c.chiral and not any(_is_duplicate(mol, _mirrored(c), d, numbers) for d in window if d is not c):
+                c.mirror_images = 2
+    degeneracy = np.array([c.mirror_images for c in window], dtype=float)
+    rt = units.rt_kcal_mol(settings.temperature_k)
+    g_ens, weights = thermo.boltzmann_ensemble(g_kcal - rt * np.log(degeneracy), settings.temperature_k)
     h_kcal = np.array([c.energy_ev * units.EV_TO_KCAL_MOL + c.thermo.enthalpy_correction_kcal_mol for c in window])
     h_ens = float(np.dot(weights, h_kcal))
     zpe = float(np.dot(weights, [c.thermo.zpe_kcal_mol for c in window]))
@@ -240,7 +257,7 @@ def compute_species(sp: Species, settings: Settings = Settings(), engine: Engine
             energy_hartree=c.energy_ev / units.HARTREE_EV,
             relative_energy_kcal_mol=(c.energy_ev - e_min) * units.EV_TO_KCAL_MOL,
             gibbs_kcal_mol=float(g_kcal[idx] - g_kcal.min()) if in_window else None,
-            weight=float(weights[idx]) if in_window else 0.0,
+            weight=float(weights[idx]) if in_window else 0.0, mirror_images=c.mirror_images,
             converged=c.opt.converged, bonding_changed=c.change.changed, note=c.note))
     for c in changed if intact else []:
         records.append(ConformerRecord(energy_hartree=c.energy_ev / units.HARTREE_EV,
