@@ -168,7 +168,7 @@ def main(argv: list[str] | None = None) -> int:
     from .engines.solvents import normalise_solvent
     from .executors import default_workers
     from .reference import hia_reference
-    from .tasks import run_task
+    from .tasks import BatchInterrupted, run_task
 
     try:
         normalise_solvent(args.solvent)
@@ -202,12 +202,13 @@ def main(argv: list[str] | None = None) -> int:
         def progress(sp, result):
             done["n"] += 1
             print(f"\r  computed {done['n']} species (last: {sp.smiles[:40]})", end="", file=sys.stderr, flush=True)
+    interrupted = False
     try:
         records = run_task(args.command, items, settings, reference=getattr(args, "reference", "tert-butyl"),
                            workers=workers, force=args.force, progress=progress)
-    except KeyboardInterrupt:
-        print("\ncationcalc: interrupted; no records were finished", file=sys.stderr)
-        return 130
+    except BatchInterrupted as exc:
+        records, interrupted = exc.records, True
+        print("\ncationcalc: interrupted; printing what finished", file=sys.stderr)
     if progress:
         print("\r" + " " * 70 + "\r", end="", file=sys.stderr)
     if not args.profile:
@@ -226,6 +227,8 @@ def main(argv: list[str] | None = None) -> int:
         engine = sum(r.get("profile", {}).get("engine_s", 0) for r in records)
         print(f"profile: species wall {wall:.2f} s, engine {engine:.2f} s, ratio "
               f"{(engine / wall if wall else 0):.2f}", file=sys.stderr)
+    if interrupted:
+        return 130
     return 1 if any(r.get("error") for r in records) else 0
 
 

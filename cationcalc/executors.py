@@ -38,6 +38,14 @@ class SpeciesFailure:
     message: str
 
 
+class Interrupted(Exception):
+    """Ctrl-C during a batch; ``results`` holds every species that finished (others are failures)."""
+
+    def __init__(self, results: dict):
+        super().__init__("interrupted")
+        self.results = results
+
+
 _ENGINES: dict = {}
 
 
@@ -69,26 +77,33 @@ def compute_many(species_list: Iterable[Species], settings: Settings, workers: i
     unique = list(dict.fromkeys(species_list))
     results: dict[Species, SpeciesResult | SpeciesFailure] = {}
     workers = max(1, min(int(workers), len(unique)))
-    if workers == 1:
-        for sp in unique:
-            results[sp] = compute_one(sp, settings)
-            if progress:
-                progress(sp, results[sp])
-        return results
-    context = multiprocessing.get_context("spawn")
-    with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
-        futures = {pool.submit(compute_one, sp, settings): sp for sp in unique}
-        try:
-            for future in as_completed(futures):
-                sp = futures[future]
-                try:
-                    results[sp] = future.result()
-                except Exception as exc:  # a crashed worker fails its species only
-                    results[sp] = SpeciesFailure(f"{sp.smiles}: worker failed: {type(exc).__name__}: {exc}")
+    try:
+        if workers == 1:
+            for sp in unique:
+                results[sp] = compute_one(sp, settings)
                 if progress:
                     progress(sp, results[sp])
-        except KeyboardInterrupt:
-            for f in futures:
-                f.cancel()
-            raise
+        else:
+            _compute_in_pool(unique, settings, workers, progress, results)
+    except KeyboardInterrupt:
+        for sp in unique:
+            results.setdefault(sp, SpeciesFailure("interrupted before this species finished"))
+        raise Interrupted({sp: results[sp] for sp in unique}) from None
     return {sp: results[sp] for sp in unique}
+
+
+def _compute_in_pool(unique, settings, workers, progress, results) -> None:
+    context = multiprocessing.get_context("spawn")
+    pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
+    futures = {pool.submit(compute_one, sp, settings): sp for sp in unique}
+    try:
+        for future in as_completed(futures):
+            sp = futures[future]
+            try:
+                results[sp] = future.result()
+            except Exception as exc:  # a crashed worker fails its species only
+                results[sp] = SpeciesFailure(f"{sp.smiles}: worker failed: {type(exc).__name__}: {exc}")
+            if progress:
+                progress(sp, results[sp])
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)

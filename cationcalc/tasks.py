@@ -21,13 +21,21 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 from . import SAFETY_NOTE, units
-from .executors import SpeciesFailure, compute_many
+from .executors import Interrupted, SpeciesFailure, compute_many
 from .models import Settings, SpeciesResult
 from .properties import heterolysis_energy, hydride_ion_affinity
 from .reference import DEFAULT_HIA_REFERENCE, HIAReference, hia_reference
 from .species import InputError, Species, carbocation, heterolysis_fragments, hydride_adduct, species
 
 TASKS = ("hia", "heterolysis", "thermo")
+
+
+class BatchInterrupted(Exception):
+    """Ctrl-C during a task; ``records`` has every input (unfinished ones carry an error)."""
+
+    def __init__(self, records: list[dict]):
+        super().__init__("interrupted")
+        self.records = records
 
 
 @dataclass
@@ -188,7 +196,11 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
         else:
             prepared.append(prepare_thermo(text, name, settings, force))
     needed = [sp for p in prepared if p.error is None for sp in p.needs.values()]
-    results = compute_many(needed, settings, workers=workers, progress=progress)
+    interrupted = False
+    try:
+        results = compute_many(needed, settings, workers=workers, progress=progress)
+    except Interrupted as exc:
+        results, interrupted = exc.results, True
     records = []
     for p in prepared:
         if p.error is not None:
@@ -201,6 +213,8 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
             records.append({**p.base, "error": "; ".join(failed), "warnings": [], "rearranged": False})
             continue
         records.append(p.finish(res))
+    if interrupted:
+        raise BatchInterrupted(records)
     return records
 
 

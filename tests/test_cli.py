@@ -56,3 +56,24 @@ def test_table_output_names_method_anchor_and_safety(capsys):
     assert main(["hia", "C[C+](C)C", "--workers", "1"]) == 0
     out = capsys.readouterr().out
     assert "GFN2-xTB" in out and "Keister" in out and "not safety data" in out
+
+
+def test_ctrl_c_prints_what_finished_and_exits_130(monkeypatch, capsys):
+    # the second species to be computed raises KeyboardInterrupt, as Ctrl-C would
+    import cationcalc.executors as executors
+
+    real = executors.compute_one
+    calls = {"n": 0}
+
+    def flaky(sp, settings):
+        calls["n"] += 1
+        if calls["n"] == 3:
+            raise KeyboardInterrupt
+        return real(sp, settings)
+
+    monkeypatch.setattr(executors, "compute_one", flaky)
+    code = main(["thermo", "O", "C", "N", "--json", "--workers", "1"])
+    records = json.loads(capsys.readouterr().out)
+    assert code == 130
+    assert [("error" in r) for r in records] == [False, False, True]
+    assert "interrupted" in records[2]["error"]
