@@ -26,7 +26,7 @@ Example
 -------
 >>> from cationcalc.properties import hydride_entropy_J_mol_K
 >>> round(hydride_entropy_J_mol_K(298.15), 1)
-108.9
+108.8
 """
 
 from __future__ import annotations
@@ -42,7 +42,7 @@ H_MASS_AMU = 1.00782503207 + 5.48579909065e-4  # H plus one electron mass; commo
 
 def hydride_entropy_J_mol_K(temperature_k: float = 298.15, pressure_pa: float = 101325.0) -> float:
     """Standard entropy of gaseous H⁻ (translation only; a closed-shell ¹S ion)."""
-    return thermo.translational_entropy_J_mol_K(H_MASS_AMU, temperature_k, pressure_pa)
+    return float(thermo.translational_entropy_J_mol_K(H_MASS_AMU, temperature_k, pressure_pa))
 
 
 @dataclass(frozen=True)
