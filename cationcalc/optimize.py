@@ -17,7 +17,7 @@ Example
 >>> from cationcalc.optimize import optimize
 >>> r = optimize([1, 1], np.array([[0, 0, 0], [0, 0, 0.9]]), get_engine(), charge=0, multiplicity=1)
 >>> r.converged, round(float(np.linalg.norm(r.positions[1] - r.positions[0])), 2)
-(True, 0.77)
+(True, 0.78)
 """
 
 from __future__ import annotations
