@@ -42,7 +42,7 @@ from .hessian import numerical_hessian
 from .models import ConformerRecord, Profile, Settings, SpeciesResult, species_key
 from .optimize import OptimizationResult, optimize
 from .species import Species
-from .symmetry import point_group
+from .symmetry import PointGroup, point_group
 
 
 class ComputationError(RuntimeError):
@@ -57,8 +57,8 @@ class _Conformer:
     energy_ev: float
     thermo: thermo.Thermochemistry | None = None
     frequencies_cm1: np.ndarray | None = None
-    point_group: str = "C1"
-    chiral: bool = False
+    #: point group of the final geometry (set with the thermochemistry)
+    group: PointGroup | None = None
     #: 2 when the conformer is chiral, the molecule is not, and its mirror image was not sampled
     mirror_images: int = 1
     note: str = ""
@@ -146,8 +146,7 @@ def _vibrate(conf: _Conformer, numbers, sp: Species, settings: Settings, engine:
             conf.opt, conf.positions, conf.energy_ev, conf.change = opt, opt.positions, opt.energy_ev, change
             vib = None
     group = point_group(numbers, conf.positions, settings.symmetry_tolerance_angstrom)
-    conf.point_group = group.name
-    conf.chiral = group.is_chiral
+    conf.group = group
     qrrho = thermo.QuasiRRHO(cutoff_cm1=settings.qrrho_cutoff_cm1, alpha=settings.qrrho_alpha,
                              average_moment_kg_m2=settings.qrrho_average_moment_kg_m2) if settings.qrrho else None
     conf.frequencies_cm1 = freqs
@@ -230,7 +229,7 @@ def compute_species(sp: Species, settings: Settings = Settings(), engine: Engine
     # when the sampling did not find it (gauche+ without gauche-, a P propeller without M)
     if not _has_stereocentre(mol):
         for c in window:
-            if c.chiral and not any(_is_duplicate(mol, _mirrored(c), d, numbers) for d in window if d is not c):
+            if c.group.is_chiral and not any(_is_duplicate(mol, _mirrored(c), d, numbers) for d in window if d is not c):
                 c.mirror_images = 2
     degeneracy = np.array([c.mirror_images for c in window], dtype=float)
     rt = units.rt_kcal_mol(settings.temperature_k)
@@ -240,7 +239,7 @@ def compute_species(sp: Species, settings: Settings = Settings(), engine: Engine
     zpe = float(np.dot(weights, [c.thermo.zpe_kcal_mol for c in window]))
     s_ens = (h_ens - g_ens) / settings.temperature_k / units.J_TO_KCAL
     best = window[int(np.argmin(g_kcal))]
-    symmetry = point_group(numbers, best.positions, settings.symmetry_tolerance_angstrom)
+    symmetry = best.group
     if settings.enantiomer_mixing and symmetry.is_chiral and _has_stereocentre(mol):
         s_mix = thermo.enantiomer_mixing_entropy_J_mol_K()
         s_ens += s_mix

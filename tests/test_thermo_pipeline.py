@@ -204,7 +204,7 @@ def test_mode_following_cleans_up_imaginary_mode(engine, computed, kind):
     assert np.all(conf.frequencies_cm1 > 0)
     assert conf.thermo.n_imaginary_ignored == 0
     assert warnings == [] and conf.note == ""
-    assert conf.point_group == "D3d" and conf.thermo.symmetry_number == 6
+    assert conf.group.name == "D3d" and conf.thermo.symmetry_number == 6
     assert conf.energy_ev < energy
     # back at the pipeline's staggered minimum (within 0.01 kcal/mol)
     assert abs(conf.energy_ev / units.HARTREE_EV - minimum_result.E_hartree) * units.HARTREE_TO_KCAL_MOL < 0.01
