@@ -3,6 +3,9 @@
     cationcalc hia "C[C+](C)C" "[CH2+]c1ccccc1" --solvent water
     cationcalc heterolysis "CC(C)(C)Cl" --json
     cationcalc thermo "C" "[Cl-]" --temperature 298.15
+    cationcalc ionize "CC(Cl)c1ccccc1" "CC(C)(C)O" --acid --solvent water
+    cationcalc sites "CC(C)CC"
+    cationcalc ladder "CC(*)c1ccccc1" --solvent water
 
 Inputs come as arguments or from ``-i FILE`` (one SMILES per line with an
 optional name after whitespace; ``-`` reads standard input).  A terminal gets
@@ -14,8 +17,6 @@ usage, 130 when interrupted (finished records are still printed).
 from __future__ import annotations
 
 import argparse
-import csv
-import io
 import json
 import sys
 
@@ -75,62 +76,140 @@ COLUMNS = {
     "thermo": [("smiles", "species"), ("E_hartree", "E/Eh"), ("zpe_kcal_mol", "ZPE"), ("H_kcal_mol", "H−E"),
                ("S_J_mol_K", "S J/mol/K"), ("G_kcal_mol", "G−E"), ("point_group", "group"),
                ("symmetry_number", "σ"), ("imaginary_frequencies_cm1", "imag. cm⁻¹")],
+    "ionize": [("name", "name"), ("substrate_smiles", "substrate"), ("leaving_group", "X"), ("site_atom", "atom"),
+               ("cation_class", "cation"), ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"), ("ddG_ion_kcal_mol", "ΔΔG_ion"),
+               ("equilibrium_factor", "K/K_ref (equilibrium)"), ("verdict", "verdict"),
+               ("shift_summary", "downhill 1,2-shift (ΔG)")],
+    "sites": [("name", "name"), ("rank", "#"), ("site_atom", "atom"), ("equivalent_atoms", "equivalent"),
+              ("leaving_group", "X"), ("cation_smiles", "cation"), ("cation_class", "class"),
+              ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"), ("dG_ion_vs_best_kcal_mol", "Δ vs #1"),
+              ("hia_kcal_mol", "HIA kcal/mol"), ("hia_vs_best_kcal_mol", "Δ vs #1"), ("verdict", "verdict"),
+              ("shift_summary", "downhill 1,2-shift (ΔG)")],
+    "ladder": [("name", "name"), ("rank", "#"), ("leaving_group", "leaving group"),
+               ("substrate_smiles", "substrate"), ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"),
+               ("dG_ion_vs_best_kcal_mol", "Δ vs #1"), ("solvolysis_k_rel", "k_rel (solvolysis)"),
+               ("verdict", "verdict")],
+    "shifts": [("name", "name"), ("cation_smiles", "cation"), ("parent_relaxation", "as optimised"),
+               ("flagged_summary", "downhill 1,2-shifts (ΔG kcal/mol)"), ("sink_smiles", "sink"),
+               ("sink_dG_kcal_mol", "ΔG to sink"), ("path_text", "path"),
+               ("path_highest_kcal_mol", "highest point")],
 }
+
+TITLES = {"hia": "hydride-ion affinity", "heterolysis": "heterolysis R–X → R⁺ + X⁻", "thermo": "thermochemistry",
+          "ionize": "ionization R–X → R⁺ + X", "sites": "ionization sites", "ladder": "leaving-group ladder",
+          "shifts": "1,2-shifts and rearrangements"}
+
+
+def _ionization_footer(task: str, records: list[dict]) -> list[str]:
+    """The notes a chemist needs beside an ionization table: model, caveats, verdict rules, sources."""
+    from .ionization import verdict_rules
+
+    ok = [r for r in records if not r.get("error")]
+    if not ok:
+        return []
+    first = ok[0]
+    lines = []
+    if "dG_ion_kcal_mol" in first:
+        references = {r.get("reference_substrate") for r in ok}
+        against = (references.pop() if len(references) == 1
+                   else "the tert-butyl substrate with the same leaving group (reference_substrate in --json)")
+        lines.append(f"ΔG_ion: R–X → R⁺ + X at {first['level']}, standard state {first['standard_state']}; "
+                     f"ΔΔG_ion against {against}.")
+        lines.append(first["equilibrium_note"] + ".")
+        if first.get("solvation_note"):
+            lines.append(first["solvation_note"][0].upper() + first["solvation_note"][1:] + ".")
+    if "hia_kcal_mol" in first:
+        lines.append(f"HIA by isodesmic hydride exchange with the {first['reference']} cation "
+                     f"(HIA {first['reference_hia_kcal_mol']} kcal/mol, {first['reference_source']}).")
+    if task == "ladder":
+        lines.append(first["ladder_note"] + ".")
+        if first.get("spearman_rho_vs_solvolysis") is not None:
+            lines.append(f"Spearman ρ(−ΔG_ion, lg k_rel) = {first['spearman_rho_vs_solvolysis']:+.2f} over "
+                         f"{first['solvolysis_n']} groups; k_rel: {first['solvolysis_source']}.")
+    rules = verdict_rules()
+    quantity, label = ("ddG_ion", "ΔΔG_ion vs tert-butyl") if "dG_ion_kcal_mol" in first else ("dHIA", "ΔHIA vs tert-butyl")
+    thresholds = "; ".join(f"{label} ≤ {r['limit_kcal_mol']} → {r['verdict']}" for r in rules
+                           if r["kind"] == "threshold" and r["key"] == quantity and r["limit_kcal_mol"] != "inf")
+    flagged = ", ".join(r["key"] for r in rules if r["kind"] == "class")
+    text = (f"Verdict rules (kcal/mol; cationcalc/data/ionization_verdicts.csv): {flagged} cations are "
+            f"SN1-implausible by structure (unless ΔG_ion ≤ 0); {thresholds}; above that SN1-implausible")
+    if quantity == "ddG_ion":
+        poor = next(r for r in rules if r["key"] == "dG_ion_solution")
+        text += f"; in solution ΔG_ion > {poor['limit_kcal_mol']} → {poor['verdict']}"
+    lines.append(text + (". Flagged and non-minimum cations rank last." if task != "ionize" else "."))
+    return lines
 
 
 def _print_table(task: str, records: list[dict]) -> None:
     from rich.console import Console
+    from rich.markup import escape
     from rich.table import Table
+
+    from .uncertainty import format_value
 
     console = Console(width=max(120, Console().width))
     first = records[0] if records else {}
-    title = {"hia": "hydride-ion affinity", "heterolysis": "heterolysis R–X → R⁺ + X⁻",
-             "thermo": "thermochemistry"}[task]
+    title = TITLES[task]
     table = Table(title=f"{title} — {first.get('level', '')}, {first.get('temperature_k', 298.15)} K",
                   title_justify="left")
-    for _, header in COLUMNS[task]:
-        table.add_column(header)
+    # columns nobody has a value for are left out (e.g. HIA columns of a leaving-group site scan)
+    columns = [(key, header) for key, header in COLUMNS[task]
+               if key in ("cation_smiles", "substrate_smiles", "smiles")
+               or any(r.get(key) not in (None, "", []) for r in records)]
+    for key, header in columns:
+        table.add_column(header, overflow="fold")
     table.add_column("notes")
+    errors: list[str] = []
     for r in records:
         row = []
-        for key, _ in COLUMNS[task]:
+        for key, _ in columns:
             value = r.get(key, r.get("input") if key in ("cation_smiles", "substrate_smiles", "smiles") else "")
-            row.append("" if value is None else str(value))
+            spread = r.get(key.replace("_kcal_mol", "_uncertainty_kcal_mol")) if key.endswith("_kcal_mol") else None
+            if isinstance(value, (int, float)) and spread is not None:
+                value = format_value(value, spread, digits=1)  # e.g. 233.4 ± 6.1
+            row.append("" if value is None else escape(str(value)))
         notes = []
         if r.get("error"):
-            notes.append(f"[red]error: {r['error']}[/red]")
+            notes.append(f"[red]error {len(errors) + 1} (below)[/red]")
+            errors.append(f"{r.get('input', '')}: {r['error']}")
         if r.get("rearranged"):
-            notes.append(f"[yellow]relaxed to {r.get('relaxed_cation_smiles') or r.get('relaxed_smiles') or 'a bridged structure'}[/yellow]")
-        notes += [w for w in r.get("warnings", [])]
+            relaxed = r.get("relaxed_cation_smiles") or r.get("relaxed_smiles") or "a bridged structure"
+            notes.append(f"[yellow]relaxed to {escape(relaxed)}[/yellow]")
+        notes += [escape(w) for w in r.get("warnings", [])]
+        if task in ("ionize", "sites", "ladder") and r.get("verdict") not in (None, "SN1/E1 plausible", "borderline"):
+            notes.insert(0, escape(r["verdict_reason"]))
         table.add_row(*row, "\n".join(notes))
     console.print(table)
+    for i, message in enumerate(errors, 1):
+        console.print(f"[red]error {i}[/red]: {escape(message)}", highlight=False)
+    if task in ("ionize", "sites", "ladder"):
+        for line in _ionization_footer(task, records):
+            console.print(escape(line), highlight=False)
     if task == "hia" and first.get("reference"):
         console.print(f"Anchor: {first['reference']} cation, HIA {first['reference_hia_kcal_mol']} kcal/mol "
                       f"({first['reference_source']}). HIA = ΔH298 of R⁺ + H⁻ → R–H by isodesmic hydride exchange.")
     if task == "heterolysis":
         console.print("Standard state: 1 atm in the gas phase, 1 mol/L in solution (1 atm → 1 M applied once per species).")
+    if task == "shifts":
+        console.print("ΔG = G(product) − G(parent), kcal/mol; a shift is flagged when ΔG < −"
+                      f"{first.get('threshold_kcal_mol', 1.0)}; ⇒ marks a barrierless step (a structure that is not a "
+                      "minimum); the highest point of the path is a lower bound to its barrier (--json: barriers).")
     console.print(f"[dim]{SAFETY_NOTE}[/dim]")
 
 
 def _write_csv(records: list[dict]) -> str:
-    keys: list[str] = []
-    for r in records:
-        for k in r:
-            if k not in keys:
-                keys.append(k)
-    buffer = io.StringIO()
-    writer = csv.DictWriter(buffer, fieldnames=keys, extrasaction="ignore")
-    writer.writeheader()
-    for r in records:
-        writer.writerow({k: json.dumps(v) if isinstance(v, (list, dict)) else v for k, v in r.items()})
-    return buffer.getvalue()
+    from .report import csv_text
+
+    return csv_text(records)
 
 
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(prog="cationcalc", description="Carbocation stability from GFN2-xTB: "
-                                     "hydride-ion affinities, heterolysis energies, thermochemistry.")
+                                     "hydride-ion affinities, heterolysis and ionization energies, ionization sites, "
+                                     "leaving-group ladders, shifts, thermochemistry.")
     parser.add_argument("--version", action="version", version=f"cationcalc {__version__}")
     sub = parser.add_subparsers(dest="command", required=True)
+    from .refine import DEFAULT_LEVEL
 
     def common(p):
         p.add_argument("smiles", nargs="*", help="SMILES inputs")
@@ -150,6 +229,14 @@ def build_parser() -> argparse.ArgumentParser:
         out.add_argument("--json", action="store_true", help="print a JSON list of records")
         out.add_argument("--csv", action="store_true", help="print CSV records")
         p.add_argument("--profile", action="store_true", help="print where the time went (stderr)")
+        p.add_argument("--store", default=None, metavar="FILE",
+                       help="SQLite result store: species already in it are read, new ones added")
+        p.add_argument("--calibrated", action="store_true",
+                       help="report HIA calibrated against gas-phase experiment (labelled; raw kept as hia_raw_kcal_mol)")
+        p.add_argument("--refine", nargs="?", const=DEFAULT_LEVEL, default=None, metavar="LEVEL",
+                       help=f"DFT single points (PySCF) on the GFN2-xTB structures, e.g. {DEFAULT_LEVEL} (the "
+                            "default), B3LYP-D3BJ/def2-SVP; /CPCM or /SMD after the basis solvates the DFT itself; "
+                            "GFN2-xTB values kept as *_xtb_* (pip install 'cationcalc[dft]')")
 
     p_hia = sub.add_parser("hia", help="hydride-ion affinities of carbocations")
     common(p_hia)
@@ -159,10 +246,51 @@ def build_parser() -> argparse.ArgumentParser:
     common(p_het)
     p_thermo = sub.add_parser("thermo", help="energy, ZPE, H, S, G, symmetry and frequencies of any species")
     common(p_thermo)
+    p_ion = sub.add_parser("ionize", help="ΔG of ionization R–X → R⁺ + X in a solvent, with a verdict")
+    common(p_ion)
+    p_ion.add_argument("--leaving-group", default="auto",
+                       help="leaving group to break (name from the library, e.g. OTs, chloride), or auto")
+    p_ion.add_argument("--acid", action="store_true", help="protonate alcohol/ether oxygens (R–OH → R–OH2+)")
+    p_ion.add_argument("--reference", default=None, dest="reference_substrate",
+                       help="substrate SMILES for ΔΔG_ion (default: tert-butyl with the same leaving group)")
+    p_ion.add_argument("--no-shifts", action="store_true",
+                       help="skip the screen for downhill 1,2-shifts of the cation formed")
+    p_sites = sub.add_parser("sites", help="rank every ionization site of a substrate (or every C–H by HIA)")
+    common(p_sites)
+    p_sites.add_argument("--acid", action="store_true", help="protonate alcohol/ether oxygens first")
+    p_sites.add_argument("--hydride", action="store_true",
+                         help="scan hydride abstraction at every C–H even when a leaving group is present")
+    p_sites.add_argument("--no-shifts", action="store_true",
+                         help="skip the screen for downhill 1,2-shifts of the cations formed")
+    p_ladder = sub.add_parser("ladder", help="ΔG_ion of one skeleton (written with *) for every leaving group")
+    common(p_ladder)
+    p_ladder.add_argument("--groups", default=None,
+                          help="comma-separated leaving groups to include (default: the whole library)")
+    p_shifts = sub.add_parser("shifts", help="1,2-shifts and ring expansions of carbocations, with driving forces")
+    common(p_shifts)
+    p_shifts.add_argument("--depth", type=int, default=3, help="longest shift path searched (default 3)")
+    p_shifts.add_argument("--threshold", type=float, default=1.0,
+                          help="ΔG (kcal/mol) below which a downhill shift is flagged (default 1)")
+    p_shifts.add_argument("--ceiling", type=float, default=25.0,
+                          help="highest intermediate (kcal/mol above the parent) a path may pass (default 25)")
+    p_shifts.add_argument("--barriers", action="store_true", help="NEB barrier for each flagged step (slow)")
+    sub.add_parser("check", help="recompute the bundled reference sets and report errors, trends and plots "
+                   "(cationcalc check [--quick]; see check --help)", add_help=False)
+    sub.add_parser("run", help="run a YAML study file (cationcalc run STUDY.yaml [--dry-run]; see run --help)",
+                   add_help=False)
     return parser
 
 
 def main(argv: list[str] | None = None) -> int:
+    argv = sys.argv[1:] if argv is None else list(argv)
+    if argv and argv[0] == "run":
+        from .study import main as run_study
+
+        return run_study(argv[1:])
+    if argv and argv[0] == "check":
+        from .checks import main as run_checks
+
+        return run_checks(argv[1:])
     parser = build_parser()
     args = parser.parse_args(argv)
     from .engines.solvents import normalise_solvent
@@ -174,6 +302,31 @@ def main(argv: list[str] | None = None) -> int:
         normalise_solvent(args.solvent)
         if args.command == "hia":
             hia_reference(args.reference)
+        if getattr(args, "calibrated", False) and args.command not in ("hia", "sites"):
+            raise ValueError("--calibrated applies to hydride-ion affinities (hia, sites); other quantities "
+                             "have no calibration and carry their uncertainty without it")
+        if args.command == "ionize" and args.leaving_group != "auto":
+            from .leaving_groups import leaving_group
+
+            leaving_group(args.leaving_group)
+        if args.command == "ladder" and args.groups:
+            from .leaving_groups import leaving_group
+
+            for name in args.groups.split(","):
+                leaving_group(name)
+        if args.refine:
+            from .refine import parse_level
+
+            if args.command == "shifts":
+                return _usage_error("--refine is not available for shifts yet; refine the cations with "
+                                    "cationcalc hia/ionize --refine")
+            parse_level(args.refine)
+            from .engines.pyscf_engine import DFTUnavailable, require_pyscf
+
+            try:
+                require_pyscf()
+            except DFTUnavailable as exc:
+                return _usage_error(str(exc))
     except ValueError as exc:
         return _usage_error(str(exc))
     try:
@@ -203,9 +356,36 @@ def main(argv: list[str] | None = None) -> int:
             done["n"] += 1
             print(f"\r  computed {done['n']} species (last: {sp.smiles[:40]})", end="", file=sys.stderr, flush=True)
     interrupted = False
+    store = None
+    if args.store:
+        from .store import ResultStore, StoreError
+
+        try:
+            store = ResultStore(args.store)
+        except StoreError as exc:
+            return _usage_error(str(exc))
     try:
-        records = run_task(args.command, items, settings, reference=getattr(args, "reference", "tert-butyl"),
-                           workers=workers, force=args.force, progress=progress)
+        if args.command == "shifts":
+            from .shifts import run_shifts
+
+            records = run_shifts(items, settings, depth=args.depth, threshold_kcal_mol=args.threshold,
+                                 ceiling_kcal_mol=args.ceiling, barriers=args.barriers, workers=workers,
+                                 force=args.force, progress=progress, store=store)
+        else:
+            options = {}
+            if args.command == "ionize":
+                options = {"leaving_group": args.leaving_group, "acid": args.acid,
+                           "reference_substrate": args.reference_substrate, "shifts": not args.no_shifts}
+            elif args.command == "sites":
+                options = {"acid": args.acid, "hydride": args.hydride, "shifts": not args.no_shifts}
+            elif args.command == "ladder":
+                options = {"groups": [g.strip() for g in args.groups.split(",") if g.strip()] if args.groups else None}
+            if args.refine:
+                options["refine"] = args.refine
+                options["refine_log"] = lambda line: print(line, file=sys.stderr, flush=True)
+            records = run_task(args.command, items, settings, reference=getattr(args, "reference", "tert-butyl"),
+                               workers=workers, force=args.force, progress=progress, calibrated=args.calibrated,
+                               store=store, **options)
     except BatchInterrupted as exc:
         records, interrupted = exc.records, True
         print("\ncationcalc: interrupted; printing what finished", file=sys.stderr)

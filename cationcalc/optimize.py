@@ -28,10 +28,23 @@ import numpy as np
 from ase import Atoms
 from ase.calculators.calculator import Calculator, all_changes
 from ase.optimize import BFGS, FIRE, LBFGS
+from ase.optimize.precon import Exp, PreconLBFGS
 
 from .engines.base import Engine, EngineResult
 
-OPTIMIZERS = {"LBFGS": LBFGS, "BFGS": BFGS, "FIRE": FIRE}
+
+def _precon_lbfgs(atoms, *, maxstep: float, **kwargs):
+    """LBFGS preconditioned with an exponential bond-length model (ASE's ``Exp``).
+
+    The preconditioner is a cheap model Hessian built from interatomic
+    distances (stiff along bonds, soft along torsions); ``r_NN`` and ``r_cut``
+    are fixed for organic molecules (ASE's automatic estimate needs a periodic
+    cell).  Armijo line search, as ASE recommends with a preconditioner.
+    """
+    return PreconLBFGS(atoms, precon=Exp(A=3.0, r_NN=1.1, r_cut=2.0), use_armijo=True, maxstep=maxstep, **kwargs)
+
+
+OPTIMIZERS = {"LBFGS": LBFGS, "BFGS": BFGS, "FIRE": FIRE, "PreconLBFGS": _precon_lbfgs}
 
 
 class EngineCalculator(Calculator):
@@ -80,7 +93,7 @@ def optimize(numbers, positions_angstrom, engine: Engine, *, charge: int, multip
         return OptimizationResult(atoms.positions.copy(), float(energy), 0.0, engine.counters.calls - before,
                                   True, calc.last.charges, calc.last.bond_orders)
     cls = OPTIMIZERS[optimizer]
-    kwargs = {"maxstep": max_step_angstrom} if optimizer in ("LBFGS", "BFGS", "FIRE") else {}
+    kwargs = {"maxstep": max_step_angstrom} if optimizer in OPTIMIZERS else {}
     opt = cls(atoms, logfile=None, trajectory=None, **kwargs)
     converged = bool(opt.run(fmax=fmax, steps=max_steps))
     forces = atoms.get_forces()

@@ -17,17 +17,16 @@ Example
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-from typing import Callable
-
 from . import SAFETY_NOTE, units
 from .executors import Interrupted, SpeciesFailure, compute_many
 from .models import Settings, SpeciesResult
 from .properties import heterolysis_energy, hydride_ion_affinity
 from .reference import DEFAULT_HIA_REFERENCE, HIAReference, hia_reference
 from .species import InputError, Species, carbocation, heterolysis_fragments, hydride_adduct, species
+from .ionization_tasks import attach_shifts, collate, prepare_ionize, prepare_ladder, prepare_sites
+from .records import Prepared, _base, _collect_warnings, _profile
 
-TASKS = ("hia", "heterolysis", "thermo")
+TASKS = ("hia", "heterolysis", "thermo", "ionize", "sites", "ladder")
 
 
 class BatchInterrupted(Exception):
@@ -36,40 +35,6 @@ class BatchInterrupted(Exception):
     def __init__(self, records: list[dict]):
         super().__init__("interrupted")
         self.records = records
-
-
-@dataclass
-class Prepared:
-    """A validated input: the species it needs and how to build its record."""
-
-    base: dict
-    needs: dict[str, Species] = field(default_factory=dict)
-    error: str | None = None
-    finish: Callable[[dict[str, SpeciesResult]], dict] | None = None
-
-
-def _base(text: str, name: str, settings: Settings) -> dict:
-    return {"input": text, "name": name, "method": settings.method, "engine": settings.engine,
-            "solvent": settings.solvent or "none", "solvent_model": settings.solvent_model or "none",
-            "level": settings.level, "temperature_k": settings.temperature_k}
-
-
-def _collect_warnings(results: dict[str, SpeciesResult]) -> list[str]:
-    seen: list[str] = []
-    for r in results.values():
-        for w in r.warnings:
-            if w not in seen:
-                seen.append(w)
-    return seen
-
-
-def _profile(results: dict[str, SpeciesResult]) -> dict:
-    grads: dict[str, int] = {}
-    for r in results.values():
-        for k, v in r.profile.gradients.items():
-            grads[k] = grads.get(k, 0) + v
-    return {"wall_s": round(sum(r.profile.wall_s for r in results.values()), 3),
-            "engine_s": round(sum(r.profile.engine_s for r in results.values()), 3), "gradients": grads}
 
 
 def prepare_hia(text: str, name: str, settings: Settings, reference: HIAReference, force: bool = False) -> Prepared:
@@ -182,40 +147,97 @@ def prepare_thermo(text: str, name: str, settings: Settings, force: bool = False
     return Prepared(base, {"species": sp}, finish=finish)
 
 
+def prepare(task: str, text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
+    """Validate one input of a task: the prepared requests (one, or one per site/leaving group)."""
+    if task == "hia":
+        return [prepare_hia(text, name, settings, hia_reference(options.get("reference", DEFAULT_HIA_REFERENCE)),
+                            force)]
+    if task == "heterolysis":
+        return [prepare_heterolysis(text, name, settings, force)]
+    if task == "thermo":
+        return [prepare_thermo(text, name, settings, force)]
+    if task == "ionize":
+        return prepare_ionize(text, name, settings, leaving_group=options.get("leaving_group", "auto"),
+                              acid=options.get("acid", False), reference=options.get("reference_substrate"),
+                              force=force)
+    if task == "sites":
+        return prepare_sites(text, name, settings, acid=options.get("acid", False),
+                             hydride=options.get("hydride", False), force=force)
+    return prepare_ladder(text, name, settings, groups=options.get("groups"), force=force)
+
+
 def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, reference: str = DEFAULT_HIA_REFERENCE,
-             workers: int = 1, force: bool = False, progress=None) -> list[dict]:
-    """Run one task over (input, name) pairs; one record per input, in input order."""
+             workers: int = 1, force: bool = False, progress=None, store=None, **options) -> list[dict]:
+    """Run one task over (input, name) pairs; records in input order.
+
+    ``hia``, ``heterolysis``, ``thermo`` and ``ionize`` give one record per
+    input; ``sites`` and ``ladder`` one per site or leaving group, ranked.
+    Options: ``reference`` (HIA anchor), and for the ionization tasks
+    ``leaving_group`` (name or 'auto'), ``acid``, ``reference_substrate``
+    (SMILES of the substrate ΔΔG_ion is measured against), ``hydride``
+    (sites: scan C–H bonds even when a leaving group is present), ``groups``
+    (ladder: restrict to these leaving groups), ``shifts`` (ionize/sites: add
+    the downhill 1,2-shifts of every cation formed).  ``refine`` (a DFT level
+    such as ``wB97X-D3BJ/def2-TZVP``): DFT single points on the GFN2-xTB
+    structures (:mod:`cationcalc.refine`); refined values take the usual keys,
+    the GFN2-xTB ones sit beside them with ``_xtb`` before the unit;
+    ``refine_top_k`` / ``refine_window_kcal_mol`` refine only the best
+    requests of a ranking, ``refine_log`` receives the cost estimates.
+
+    ``store`` (optional) is passed to :func:`~cationcalc.executors.compute_many`
+    so species already computed with the same settings are read, not recomputed.
+    """
     if task not in TASKS:
         raise ValueError(f"unknown task {task!r}: choose one of {', '.join(TASKS)}")
-    prepared = []
-    for text, name in items:
-        if task == "hia":
-            prepared.append(prepare_hia(text, name, settings, hia_reference(reference), force))
-        elif task == "heterolysis":
-            prepared.append(prepare_heterolysis(text, name, settings, force))
-        else:
-            prepared.append(prepare_thermo(text, name, settings, force))
-    needed = [sp for p in prepared if p.error is None for sp in p.needs.values()]
+    options = {"reference": reference, **options}
+    groups = [prepare(task, text, name, settings, options, force) for text, name in items]
+    needed = [sp for group in groups for p in group if p.error is None for sp in p.needs.values()]
     interrupted = False
     try:
-        results = compute_many(needed, settings, workers=workers, progress=progress)
+        results = compute_many(needed, settings, workers=workers, progress=progress, store=store)
     except Interrupted as exc:
         results, interrupted = exc.results, True
     records = []
-    for p in prepared:
-        if p.error is not None:
-            records.append({**p.base, "error": p.error, "warnings": [], "rearranged": False})
-            continue
-        res = {role: results[sp] for role, sp in p.needs.items()}
-        failed = [f"{role} {sp.smiles}: {results[sp].message}" for role, sp in p.needs.items()
-                  if isinstance(results[sp], SpeciesFailure)]
-        if failed:
-            records.append({**p.base, "error": "; ".join(failed), "warnings": [], "rearranged": False})
-            continue
-        records.append(p.finish(res))
+    finished_groups = []
+    for group in groups:
+        finished = []
+        for p in group:
+            if p.error is not None:
+                finished.append({**p.base, "error": p.error, "warnings": [], "rearranged": False})
+                continue
+            res = {role: results[sp] for role, sp in p.needs.items()}
+            failed = [f"{role} {sp.smiles}: {results[sp].message}" for role, sp in p.needs.items()
+                      if isinstance(results[sp], SpeciesFailure)]
+            if failed:
+                finished.append({**p.base, "error": "; ".join(failed), "warnings": [], "rearranged": False})
+                continue
+            finished.append(p.finish(res))
+        finished_groups.append(finished)
+    refining = bool(options.get("refine")) and not interrupted
+    if refining:  # DFT refinement tier (cationcalc.refine): records rebuilt from refined species
+        from .refine import refine_task_records
+
+        finished_groups = refine_task_records(task, groups, finished_groups, results, settings, options,
+                                              workers=workers, force=force, store=store)
+    for finished in finished_groups:
+        records.extend(collate(task, finished, settings))
+    if options.get("shifts") and task in ("ionize", "sites") and not interrupted:
+        try:
+            known = {sp: r for sp, r in results.items() if not isinstance(r, SpeciesFailure)}
+            records = attach_shifts(records, known, settings, workers=workers, store=store, progress=progress,
+                                    threshold_kcal_mol=options.get("shift_threshold_kcal_mol"))
+        except Interrupted:
+            interrupted = True
+    from .uncertainty import annotate
+    records = annotate(task, records, settings,
+                       calibrated=bool(options.get("calibrated", False)) and not refining)
+    if refining:
+        from .refine import relabel_uncertainties
+
+        records = relabel_uncertainties(records, calibrated=bool(options.get("calibrated", False)))
     if interrupted:
         raise BatchInterrupted(records)
     return records
 
 
-__all__ = ["run_task", "TASKS", "SAFETY_NOTE"]
+__all__ = ["run_task", "prepare", "TASKS", "SAFETY_NOTE"]

@@ -60,3 +60,56 @@ def test_scf_failure_walks_the_retry_ladder_then_reports():
     reference = get_engine("tblite").compute(numbers, geometries[0], charge=1, multiplicity=1, solvent=None)
     assert result.scf_retry != "" and engine.counters.scf_retries >= 1
     assert result.energy_ev == pytest.approx(reference.energy_ev, abs=1e-5)
+
+
+_BLAS_PROBE = """
+import json, sys
+import numpy as np
+from cationcalc.conformers import embed_conformers
+from cationcalc.engines import get_engine
+from cationcalc.engines.blas import blas_status, mkl_in_use
+from cationcalc.units import HARTREE_EV
+out = []
+for smiles, charge, solvent in [("CC(C)(Cl)c1ccccc1", 0, "water"), ("[CH2+]c1ccc(-c2ccccc2)cc1", 1, None)]:
+    mol, geometries = embed_conformers(smiles)
+    numbers = [a.GetAtomicNum() for a in mol.GetAtoms()]
+    r = get_engine("tblite").compute(numbers, geometries[0], charge=charge, multiplicity=1, solvent=solvent)
+    out.append([r.energy_ev / HARTREE_EV, np.abs(r.forces_ev_per_angstrom).max() / HARTREE_EV])
+print(json.dumps({"results": out, "blas": blas_status()["library"], "mkl_called": mkl_in_use()}))
+"""
+
+
+def _probe(blas: str) -> dict:
+    import json
+    import os
+    import subprocess
+    import sys
+
+    env = {**os.environ, "CATIONCALC_BLAS": blas}
+    proc = subprocess.run([sys.executable, "-c", _BLAS_PROBE], capture_output=True, text=True, env=env, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    return json.loads(proc.stdout.strip().splitlines()[-1])
+
+
+def test_optimized_blas_gives_the_same_energies_and_can_be_switched_off():
+    from cationcalc.engines.blas import _mkl_runtime_path
+
+    reference = _probe("reference")
+    assert reference["blas"] == "reference" and not reference["mkl_called"]
+    if _mkl_runtime_path() is None:
+        pytest.skip('MKL not installed (pip install "cationcalc[fast]"): nothing to compare')
+    fast = _probe("auto")
+    assert fast["blas"] == "mkl" and fast["mkl_called"]  # tblite's BLAS/LAPACK calls really went to MKL
+    for (e_ref, f_ref), (e_fast, f_fast) in zip(reference["results"], fast["results"]):
+        assert abs(e_ref - e_fast) < 1e-8  # Hartree
+        assert abs(f_ref - f_fast) < 1e-7  # Hartree/Å, largest force component
+
+
+def test_blas_setting_is_validated(monkeypatch):
+    from cationcalc.engines import blas
+
+    monkeypatch.setenv(blas.ENV_VAR, "fastest-please")
+    with pytest.raises(blas.BLASError, match="choose one of"):
+        blas._choice()
+    monkeypatch.setenv(blas.ENV_VAR, "off")
+    assert blas._choice() == "reference"

@@ -94,9 +94,10 @@ class CachedEngineState:
         self.electronic_temperature_k = float(electronic_temperature_k)
         self.accuracy = float(accuracy)
         self.counters = EngineCounters()
-        self._forget()
+        self.reset()
 
-    def _forget(self) -> None:
+    def reset(self) -> None:
+        """Drop the cached calculator and SCF restart: the next call starts from scratch."""
         self._key = None
         self._calc = None
         self._restart = None

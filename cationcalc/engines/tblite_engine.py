@@ -25,6 +25,7 @@ from typing import Sequence
 import numpy as np
 
 from .. import units
+from .blas import prepare_blas
 from .base import (
     CachedEngineState,
     EngineError,
@@ -36,7 +37,7 @@ from .base import (
 )
 from .solvents import ALPB_NAMES, GBSA_NAMES
 
-_KELVIN_TO_HARTREE = units.BOLTZMANN_J_K / (units.HARTREE_EV * 1.602176634e-19)
+_KELVIN_TO_HARTREE = units.BOLTZMANN_J_K / (units.HARTREE_EV * units.EV_TO_J_MOL / units.AVOGADRO)
 
 
 class TBLiteEngine(CachedEngineState):
@@ -50,6 +51,7 @@ class TBLiteEngine(CachedEngineState):
         if solvent_model not in ("ALPB", "GBSA"):
             raise ValueError(f"solvent model {solvent_model!r}: tblite engine offers ALPB or GBSA")
         self.solvent_model = solvent_model
+        prepare_blas()  # before tblite is imported: its BLAS/LAPACK symbols bind to MKL when installed
         super().__init__(max_iterations, electronic_temperature_k, accuracy)
 
     def solvents(self) -> tuple[str, ...]:
@@ -140,7 +142,7 @@ class TBLiteEngine(CachedEngineState):
                 return res, f"converged at {hot:.0f} K, then re-converged at {base_t:.0f} K"
             except (TBLiteRuntimeError, RuntimeError) as exc:
                 last_error = exc
-        self._forget()
+        self.reset()
         raise SCFConvergenceError(
             f"GFN2-xTB SCF did not converge after the retry ladder (max {4 * self.max_iterations} "
             f"iterations, damped mixer, hot electronic temperatures): {last_error}"

@@ -83,7 +83,7 @@ class XTBEngine(CachedEngineState):
                 except XTBException as exc:
                     last = exc
             if res is None:
-                self._forget()
+                self.reset()
                 raise SCFConvergenceError(f"GFN2-xTB (xtb-python) SCF did not converge: {last}")
             self._restart = res
         if retry:
