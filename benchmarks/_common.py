@@ -53,12 +53,15 @@ def machine() -> dict:
         info["tblite"] = version("tblite")
     except Exception:
         pass
-    try:
-        from cationcalc.engines.blas import blas_status
+    try:  # what the child processes use (the same environment decides)
+        from cationcalc.engines.blas import blas_status, prepare_blas
 
-        info["blas"] = blas_status()
-    except Exception:
-        pass
+        prepare_blas()
+        status = blas_status()
+        info["blas"] = status["library"] + (f" ({status['version']})" if status["version"] else "")
+    except Exception as exc:
+        info["blas"] = f"unknown ({exc})"
+
     return info
 
 

@@ -28,6 +28,7 @@ from _common import fit_exponent, machine, run_child, save
 
 
 def alkyl(k: int) -> str:
+    """(CH3)2C+–(CH2)(k−1)–CH3, k ≥ 1 (k = 1: tert-butyl)."""
     return "C[C+](C)" + "C" * k
 
 
@@ -37,7 +38,7 @@ def aryl(k: int) -> str:
 
 SERIES = {
     # k chosen so that the cation has about 10 ... 150 atoms (alkyl: 3k+10, aryl: 10k+14)
-    "alkyl": (alkyl, [0, 2, 5, 9, 15, 24, 35, 46]),
+    "alkyl": (alkyl, [1, 3, 6, 10, 16, 24, 35, 46]),
     "aryl": (aryl, [0, 1, 2, 4, 6, 9, 13]),
 }
 

@@ -43,7 +43,7 @@ class Settings(BaseModel):
     pressure_pa: float = Field(101325.0, gt=0, description="gas-phase standard pressure (1 atm)")
     fmax_ev_per_angstrom: float = Field(0.01, gt=0)
     max_steps: int = Field(500, ge=1)
-    optimizer: Literal["LBFGS", "BFGS", "FIRE"] = "LBFGS"
+    optimizer: Literal["LBFGS", "BFGS", "FIRE", "PreconLBFGS"] = "LBFGS"
     scf_max_iterations: int = Field(250, ge=1)
     conformers: ConformerSettings = ConformerSettings()
     hessian_step_angstrom: float = Field(0.005, gt=0)

@@ -122,7 +122,7 @@ def _vibrate(conf: _Conformer, numbers, sp: Species, settings: Settings, engine:
                                     "rearrange or bridge")
                 else:
                     warnings.append(f"{sp.smiles}: small imaginary mode(s) ({listing} cm-1) remain after {attempt} "
-                                    "displacements; left out of the thermochemistry")
+                                    "displacements; counted as real low modes (|ν|) in the thermochemistry")
                 break
             # follow every imaginary mode downhill (a methyl-rotation saddle is harmless; a
             # mode that leads to new bonds is not, and is reported instead of followed)
@@ -150,7 +150,11 @@ def _vibrate(conf: _Conformer, numbers, sp: Species, settings: Settings, engine:
     qrrho = thermo.QuasiRRHO(cutoff_cm1=settings.qrrho_cutoff_cm1, alpha=settings.qrrho_alpha,
                              average_moment_kg_m2=settings.qrrho_average_moment_kg_m2) if settings.qrrho else None
     conf.frequencies_cm1 = freqs
-    conf.thermo = thermo.thermochemistry(freqs, masses, conf.positions, group.symmetry_number,
+    # a small imaginary mode that survives mode following is a flat torsion the numerical Hessian
+    # cannot resolve: count it as a real low mode (the quasi-RRHO treats it as a rotor), so G does
+    # not jump by ~1 kcal/mol between a 15i and a 15 cm-1 result; saddle-point modes stay out
+    soft = (freqs < 0) & (freqs > -settings.imaginary_threshold_cm1) & (conf.note != "saddle point")
+    conf.thermo = thermo.thermochemistry(np.where(soft, -freqs, freqs), masses, conf.positions, group.symmetry_number,
                                          spin_multiplicity=sp.multiplicity, temperature_k=settings.temperature_k,
                                          pressure_pa=settings.pressure_pa, qrrho=qrrho)
 

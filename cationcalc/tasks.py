@@ -217,8 +217,15 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
     if refining:  # DFT refinement tier (cationcalc.refine): records rebuilt from refined species
         from .refine import refine_task_records
 
-        finished_groups = refine_task_records(task, groups, finished_groups, results, settings, options,
-                                              workers=workers, force=force, store=store)
+        try:
+            finished_groups = refine_task_records(task, groups, finished_groups, results, settings, options,
+                                                  workers=workers, force=force, store=store)
+        except KeyboardInterrupt:  # keep the GFN2-xTB records, labelled as not refined
+            interrupted, refining = True, False
+            for r in (r for finished in finished_groups for r in finished if not r.get("error")):
+                r["refine_level"] = None
+                r["warnings"] = list(r.get("warnings", [])) + [
+                    f"DFT refinement interrupted: this value is {settings.level}"]
     for finished in finished_groups:
         records.extend(collate(task, finished, settings))
     if options.get("shifts") and task in ("ionize", "sites") and not interrupted:

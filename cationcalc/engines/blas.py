@@ -13,8 +13,8 @@ molecules).  numpy and scipy are not affected: their OpenBLAS exports
 prefixed symbols.
 
 Measured on an AMD EPYC core (benchmarks/blas.py): energies identical to
-1e-10 Eh; one energy+gradient 1.3× faster at 35 atoms, 2× at 92, 2.7× at
-182.
+1e-13 Eh; one energy+gradient 1.3× faster at 35 atoms, about 2× from 55
+atoms up (2.2–2.7× at 182).
 
 Switch: ``CATIONCALC_BLAS=auto`` (default: MKL when installed, else the
 reference BLAS), ``mkl`` (MKL or an error), ``reference`` (never preload).

@@ -20,6 +20,8 @@ True
 
 from __future__ import annotations
 
+import atexit
+import weakref
 from typing import Sequence
 
 import numpy as np
@@ -40,6 +42,18 @@ from .solvents import ALPB_NAMES, GBSA_NAMES
 _KELVIN_TO_HARTREE = units.BOLTZMANN_J_K / (units.HARTREE_EV * units.EV_TO_J_MOL / units.AVOGADRO)
 
 
+#: engines alive in this process; their library objects are freed at exit while tblite is still loaded
+_LIVE: "weakref.WeakSet[TBLiteEngine]" = weakref.WeakSet()
+
+
+@atexit.register
+def _release_library_objects() -> None:
+    # without this, a cached engine outliving the tblite module at interpreter shutdown makes
+    # its ffi.gc callbacks print "Exception ignored ... 'NoneType' object has no attribute"
+    for engine in list(_LIVE):
+        engine.reset()
+
+
 class TBLiteEngine(CachedEngineState):
     """GFN2-xTB from tblite; ALPB (default) or GBSA implicit solvent."""
 
@@ -53,6 +67,7 @@ class TBLiteEngine(CachedEngineState):
         self.solvent_model = solvent_model
         prepare_blas()  # before tblite is imported: its BLAS/LAPACK symbols bind to MKL when installed
         super().__init__(max_iterations, electronic_temperature_k, accuracy)
+        _LIVE.add(self)
 
     def solvents(self) -> tuple[str, ...]:
         return tuple(sorted(ALPB_NAMES if self.solvent_model == "ALPB" else GBSA_NAMES))
