@@ -35,7 +35,7 @@ from functools import lru_cache
 from rdkit import Chem
 
 from . import units
-from .leaving_groups import LeavingGroup, describe_library, find_leaving_groups
+from .leaving_groups import LeavingGroup, attachment_point, describe_library, find_leaving_groups
 from .reference import load_table
 from .species import Carbocation, InputError, Species, _freeze_hydrogens, carbocation, parse, species, split_bond
 
@@ -314,18 +314,13 @@ def reference_substrate(site: IonizationSite, skeleton: str = TERT_BUTYL) -> Ion
     if site.leaving_atom is None or site.departing_atom is None:
         raise ValueError("hydride sites have no departing group to transfer")
     departing = Chem.MolFromSmiles(site.departing.smiles)
-    skel = Chem.MolFromSmiles(skeleton)
-    if skel is None or sum(a.GetAtomicNum() == 0 for a in skel.GetAtoms()) != 1:
-        raise InputError(f"reference skeleton {skeleton!r} needs exactly one *, e.g. CC(C)(C)*")
-    n_skel = skel.GetNumAtoms()
-    combined = Chem.RWMol(Chem.CombineMols(skel, departing))
+    skel, dummy, carbon = attachment_point(skeleton)
+    combined = Chem.RWMol(Chem.CombineMols(skel, departing))  # the skeleton keeps its atom indices
     _freeze_hydrogens(combined)
-    dummy = next(a for a in combined.GetAtoms() if a.GetAtomicNum() == 0)
-    carbon = dummy.GetNeighbors()[0].GetIdx()
-    leaving = combined.GetAtomWithIdx(n_skel + site.departing_atom)
+    leaving = combined.GetAtomWithIdx(skel.GetNumAtoms() + site.departing_atom)
     leaving.SetFormalCharge(leaving.GetFormalCharge() + 1)
     combined.AddBond(carbon, leaving.GetIdx(), Chem.BondType.SINGLE)
-    combined.RemoveAtom(dummy.GetIdx())
+    combined.RemoveAtom(dummy)
     mol = combined.GetMol()
     Chem.SanitizeMol(mol)
     smiles = Chem.MolToSmiles(mol)
@@ -343,12 +338,11 @@ def skeleton_cation_smiles(skeleton: str) -> str:
     >>> skeleton_cation_smiles("CC(*)c1ccccc1")
     'C[CH+]c1ccccc1'
     """
-    mol = Chem.RWMol(Chem.MolFromSmiles(skeleton))
-    dummy = next(a for a in mol.GetAtoms() if a.GetAtomicNum() == 0)
-    carbon = dummy.GetNeighbors()[0].GetIdx()
+    parsed, dummy, carbon = attachment_point(skeleton)
+    mol = Chem.RWMol(parsed)
     _freeze_hydrogens(mol)
     mol.GetAtomWithIdx(carbon).SetFormalCharge(1)
-    mol.RemoveAtom(dummy.GetIdx())
+    mol.RemoveAtom(dummy)
     out = mol.GetMol()
     Chem.SanitizeMol(out)
     return carbocation(Chem.MolToSmiles(out), force=True).smiles

@@ -142,16 +142,13 @@ def _hydride_prepared(site: IonizationSite, base: dict, settings: Settings) -> P
     return Prepared(base, needs, finish=finish)
 
 
-def _user_reference(text: str | None, group_name: str | None, force: bool) -> IonizationSite | None:
-    if not text:
-        return None
-    sites = heterolysis_sites(text, force=force)
-    if group_name is not None:
-        sites = [s for s in sites if s.leaving_group == group_name] or sites
-    if len(sites) != 1:
-        raise InputError(f"reference substrate {text!r} has {len(sites)} ionization sites; give one with a single "
+def _user_reference(sites: list[IonizationSite], group_name: str, text: str) -> IonizationSite:
+    """The reference substrate's site with the given leaving group (its only site otherwise)."""
+    chosen = [s for s in sites if s.leaving_group == group_name] or sites
+    if len(chosen) != 1:
+        raise InputError(f"reference substrate {text!r} has {len(chosen)} ionization sites; give one with a single "
                          "leaving group, e.g. CC(C)(C)Cl")
-    return sites[0]
+    return chosen[0]
 
 
 def prepare_ionize(text: str, name: str, settings: Settings, *, leaving_group: str = "auto", acid: bool = False,
@@ -163,12 +160,13 @@ def prepare_ionize(text: str, name: str, settings: Settings, *, leaving_group: s
     except InputError as exc:
         return [Prepared(base, error=str(exc))]
     out = []
-    for site in sites:
-        try:
-            user = _user_reference(reference, site.leaving_group, force)
-        except InputError as exc:
-            return [Prepared(base, error=str(exc))]
-        out.append(_heterolysis_prepared(site, base, settings, user))
+    try:
+        reference_sites = heterolysis_sites(reference, force=force) if reference else None
+        for site in sites:
+            user = _user_reference(reference_sites, site.leaving_group, reference) if reference_sites else None
+            out.append(_heterolysis_prepared(site, base, settings, user))
+    except InputError as exc:
+        return [Prepared(base, error=str(exc))]
     return out
 
 
@@ -260,13 +258,14 @@ def collate(task: str, records: list[dict], settings: Settings) -> list[dict]:
         if len(common) >= 3:
             rho = spearman_rho([-r["dG_ion_kcal_mol"] for r in common],
                                [math.log10(float(rates[r["leaving_group"]]["k_rel"])) for r in common])
+        first_row = next(iter(rates.values()), None)
+        source = f"{first_row['source']} — 1-phenylethyl-X, {first_row['conditions']}" if first_row else ""
         for r in ok:
             row = rates.get(r["leaving_group"])
             r["solvolysis_k_rel"] = float(row["k_rel"]) if row else None
             r["spearman_rho_vs_solvolysis"] = round(rho, 3) if rho is not None else None
             r["solvolysis_n"] = len(common)
-            r["solvolysis_source"] = (next(iter(rates.values()))["source"] + " — 1-phenylethyl-X, "
-                                      + next(iter(rates.values()))["conditions"]) if rates else ""
+            r["solvolysis_source"] = source
             r["ladder_note"] = LADDER_NOTE
     return ok + failed
 

@@ -136,11 +136,11 @@ def find_leaving_groups(substrate: str | Chem.Mol, only: LeavingGroup | None = N
     return sorted(sites, key=lambda s: (s.carbon, s.leaving_atom))
 
 
-def attach(skeleton: str, group: LeavingGroup) -> str:
-    """Put a leaving group on a skeleton written with ``*`` at the attachment point.
+def attachment_point(skeleton: str) -> tuple[Chem.Mol, int, int]:
+    """Parse a skeleton written with one ``*`` on one carbon: (molecule, index of ``*``, index of that carbon).
 
-    >>> attach("CC(*)c1ccccc1", leaving_group("chloride"))
-    'CC(Cl)c1ccccc1'
+    >>> attachment_point("CC(C)(C)*")[1:]
+    (4, 1)
     """
     text = skeleton.strip()
     mol = Chem.MolFromSmiles(text)
@@ -153,9 +153,19 @@ def attach(skeleton: str, group: LeavingGroup) -> str:
                          "e.g. CC(*)c1ccccc1 for 1-phenylethyl")
     if dummies[0].GetDegree() != 1 or dummies[0].GetNeighbors()[0].GetSymbol() != "C":
         raise InputError(f"{text!r}: the * must hang on one carbon by a single bond, e.g. CC(C)(C)*")
+    return mol, dummies[0].GetIdx(), dummies[0].GetNeighbors()[0].GetIdx()
+
+
+def attach(skeleton: str, group: LeavingGroup) -> str:
+    """Put a leaving group on a skeleton written with ``*`` at the attachment point.
+
+    >>> attach("CC(*)c1ccccc1", leaving_group("chloride"))
+    'CC(Cl)c1ccccc1'
+    """
+    mol, dummy, _ = attachment_point(skeleton)
     if not group.group:
         raise InputError(f"leaving group {group.name!r} has no ladder substituent; choose a named group")
-    dummies[0].SetAtomMapNum(1)
+    mol.GetAtomWithIdx(dummy).SetAtomMapNum(1)
     substituent = Chem.MolFromSmiles(group.group)
     for atom in substituent.GetAtoms():
         if atom.GetAtomicNum() == 0:
@@ -164,4 +174,4 @@ def attach(skeleton: str, group: LeavingGroup) -> str:
 
 
 __all__ = ["LeavingGroup", "LeavingGroupSite", "library", "ladder_groups", "leaving_group", "find_leaving_groups",
-           "attach", "describe_library"]
+           "attach", "attachment_point", "describe_library"]

@@ -752,21 +752,6 @@ def _add_barriers(record: dict, search: ShiftSearch, settings: Settings, options
     record.setdefault("profile", {})["barriers_s"] = round(total, 2)
 
 
-def downhill_shifts(cation_smiles: str, settings: Settings, *,
-                    threshold_kcal_mol: float = DEFAULT_THRESHOLD_KCAL_MOL,
-                    compute: Callable[[list[Species]], dict] | None = None, workers: int = 1,
-                    store=None) -> list[dict]:
-    """The flagged (downhill) 1,2-shifts of one cation, for a ``shifts`` section of other tasks.
-
-    One shift deep; entries are those of :func:`run_shifts`' ``shifts`` list.
-    """
-    record = run_shifts([(cation_smiles, "")], settings, depth=1, threshold_kcal_mol=threshold_kcal_mol,
-                        workers=workers, store=store, compute=compute)[0]
-    if "error" in record:
-        return []
-    return [s for s in record["shifts"] if s["flagged"]]
-
-
 __all__ = ["ShiftCandidate", "ShiftSearch", "enumerate_shifts", "skipped_shifts", "classify_relaxation",
-           "run_shifts", "downhill_shifts", "DEFAULT_THRESHOLD_KCAL_MOL", "DEFAULT_CEILING_KCAL_MOL",
+           "run_shifts", "DEFAULT_THRESHOLD_KCAL_MOL", "DEFAULT_CEILING_KCAL_MOL",
            "DEFAULT_DEPTH", "DEFAULT_MAX_SPECIES", "KINDS"]

@@ -343,6 +343,14 @@ class LoadedWorkflow:
         return _line_of(self.node, loc)
 
 
+def _mapping_entry(node, part) -> tuple[int, Any] | None:
+    """(1-based line of the key, value node) of key ``part`` in a YAML mapping node, or None."""
+    for key, value in node.value:
+        if isinstance(key, yaml.ScalarNode) and key.value == str(part):
+            return key.start_mark.line + 1, value
+    return None
+
+
 def _line_of(node, loc: tuple) -> int:
     """1-based line of the YAML node at a pydantic location (the deepest part that exists)."""
     line = node.start_mark.line + 1 if node is not None else 1
@@ -350,13 +358,10 @@ def _line_of(node, loc: tuple) -> int:
         if isinstance(node, yaml.MappingNode):
             if isinstance(part, int):
                 continue  # a single mapping written where a list was expected
-            for key, value in node.value:
-                if isinstance(key, yaml.ScalarNode) and key.value == str(part):
-                    line = key.start_mark.line + 1
-                    node = value
-                    break
-            else:
+            found = _mapping_entry(node, part)
+            if found is None:
                 return line
+            line, node = found
         elif isinstance(node, yaml.SequenceNode):
             if isinstance(part, int):
                 if part >= len(node.value):
@@ -367,14 +372,9 @@ def _line_of(node, loc: tuple) -> int:
             for item in node.value:  # a task list written as names: [hia, heterolysis]
                 if isinstance(item, yaml.ScalarNode) and item.value == str(part):
                     return item.start_mark.line + 1
-                if isinstance(item, yaml.MappingNode):
-                    for key, value in item.value:
-                        if isinstance(key, yaml.ScalarNode) and key.value == str(part):
-                            line = key.start_mark.line + 1
-                            node = value
-                            break
-                    else:
-                        continue
+                found = _mapping_entry(item, part) if isinstance(item, yaml.MappingNode) else None
+                if found is not None:
+                    line, node = found
                     break
             else:
                 return line

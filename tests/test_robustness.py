@@ -9,7 +9,6 @@ test_study.py; this file covers what those leave out.)
 import json
 import os
 import signal
-import sqlite3
 import subprocess
 import sys
 import time
@@ -26,6 +25,7 @@ from cationcalc.models import Settings
 from cationcalc.optimize import optimize
 from cationcalc.pipeline import ComputationError, compute_species
 from cationcalc.species import MAX_HEAVY_ATOMS, species
+from store_probe import stored_species
 
 ROOT = Path(__file__).resolve().parents[1]
 FEW = ConformerSettings(max_conformers=2, n_optimize=1)
@@ -145,15 +145,6 @@ def test_nan_from_the_engine_is_caught_and_fails_the_species(monkeypatch):
 # Ctrl-C: what finished is printed and kept, the exit status is not 0, no temporary files remain
 # ---------------------------------------------------------------------------------------------
 
-def _stored(store: Path) -> int:
-    if not store.exists():
-        return 0
-    try:
-        with sqlite3.connect(store, timeout=5) as db:
-            return db.execute("SELECT COUNT(*) FROM species").fetchone()[0]
-    except sqlite3.OperationalError:
-        return 0
-
 
 @pytest.mark.parametrize("workers", [1, 2])
 def test_ctrl_c_keeps_what_finished_and_leaves_no_temporary_files(tmp_path, workers):
@@ -166,7 +157,7 @@ def test_ctrl_c_keeps_what_finished_and_leaves_no_temporary_files(tmp_path, work
                              "--workers", str(workers), "--store", str(store)],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
     deadline = time.monotonic() + 120
-    while _stored(store) < 1:
+    while stored_species(store) < 1:
         assert proc.poll() is None, proc.communicate()
         assert time.monotonic() < deadline, "nothing was stored within 2 minutes"
         time.sleep(0.02)
@@ -178,7 +169,7 @@ def test_ctrl_c_keeps_what_finished_and_leaves_no_temporary_files(tmp_path, work
     finished = [r for r in records if "error" not in r]
     assert len(records) == len(inputs) and 1 <= len(finished) < len(inputs)
     assert all("interrupted" in r["error"] for r in records if "error" in r)
-    assert _stored(store) >= len(finished)  # everything printed as finished is in the store
+    assert stored_species(store) >= len(finished)  # everything printed as finished is in the store
     assert sorted(p.name for p in temp.iterdir()) == []  # the temp folder is as it was before
     # beside the store (and SQLite's own WAL files) nothing was left in the working folder
     assert {p.name for p in tmp_path.iterdir()} <= {"store.sqlite", "store.sqlite-shm", "store.sqlite-wal", "tmp"}

@@ -3,7 +3,6 @@
 import json
 import os
 import signal
-import sqlite3
 import subprocess
 import sys
 import textwrap
@@ -14,6 +13,7 @@ import pytest
 
 from cationcalc import SAFETY_NOTE
 from cationcalc.study import WorkflowError, build_plan, load_workflow, main, run_study
+from store_probe import stored_species
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -265,22 +265,12 @@ def test_process_pool_and_dask_give_identical_numbers_and_rerun_computes_nothing
 MANY = ["CC(C)(C)Cl", "CCC(C)(C)Cl", "CCCCO", "CC(C)CCO", "CCOCC", "CCCCCC", "CC(C)(C)O", "CCOC(C)=O"]
 
 
-def _stored(store: Path) -> int:
-    if not store.exists():
-        return 0
-    try:
-        with sqlite3.connect(store, timeout=5) as db:
-            return db.execute("SELECT COUNT(*) FROM species").fetchone()[0]
-    except sqlite3.OperationalError:  # the table is not there yet
-        return 0
-
-
 def _start_and_stop(path: Path, store: Path, sig: int) -> subprocess.CompletedProcess:
     env = {**os.environ, "PYTHONPATH": str(ROOT)}
     proc = subprocess.Popen([sys.executable, "-m", "cationcalc.cli", "run", str(path), "--workers", "1", "--quiet"],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
     deadline = time.monotonic() + 120
-    while _stored(store) < 1:
+    while stored_species(store) < 1:
         assert proc.poll() is None, proc.communicate()
         assert time.monotonic() < deadline
         time.sleep(0.01)
@@ -301,7 +291,7 @@ def test_a_killed_run_resumes_computing_only_what_is_missing(tmp_path, sig):
     else:
         assert stopped.returncode == -signal.SIGKILL
     assert not (tmp_path / "out" / "results.json").exists()  # no partial outputs
-    kept = _stored(store)
+    kept = stored_species(store)
     assert 1 <= kept < len(MANY)
     from cationcalc.store import ResultStore
 
@@ -309,7 +299,7 @@ def test_a_killed_run_resumes_computing_only_what_is_missing(tmp_path, sig):
         assert s.integrity() == "ok"
     resumed = run_study(path, workers=1)
     assert (resumed.computed, resumed.reused, resumed.failed) == (len(MANY) - kept, kept, 0)
-    assert _stored(store) == len(MANY)
+    assert stored_species(store) == len(MANY)
     assert len(resumed.records) == len(MANY) and not any(r.get("error") for r in resumed.records)
     again = run_study(path, workers=1)
     assert (again.computed, again.reused) == (0, len(MANY)) and again.records == resumed.records
