@@ -544,7 +544,8 @@ def run_checks(settings: Settings | None = None, *, quick: bool = False, workers
         own_store = tempfile.TemporaryDirectory(prefix="cationcalc-check-")
         store = ResultStore(Path(own_store.name) / "store.sqlite")
     all_sets = reference_sets()
-    chosen = [all_sets[k] for k in (sets or all_sets)]
+    with_rates = sets is None or "rates" in sets
+    chosen = [all_sets[k] for k in (sets or all_sets) if k != "rates"]
 
     def entries_of(rs: ReferenceSet):
         return tuple(e for e in rs.entries if e.name in rs.quick) if quick else rs.entries
@@ -595,6 +596,11 @@ def run_checks(settings: Settings | None = None, *, quick: bool = False, workers
             cal = calibration_for(s) if rs.medium == "run" else None
             results[rs.key] = _evaluate_correlation(rs, entries, values, s, cal)
         trends = trend_checks(hia, isomer_h, results, gas_table)
+        kinetics = None
+        if with_rates:
+            from .rate_checks import run_rate_checks
+
+            kinetics = run_rate_checks(settings, quick=quick, workers=workers, store=store, progress=progress)
     finally:
         if own_store is not None:
             store.close()
@@ -602,7 +608,7 @@ def run_checks(settings: Settings | None = None, *, quick: bool = False, workers
     return {"version": __version__, "level": settings.level, "engine": settings.engine,
             "solvent": settings.solvent or "none", "quick": quick, "workers": workers,
             "elapsed_s": round(time.perf_counter() - start, 1), "sets": results, "trends": trends,
-            "skipped": skipped}
+            "skipped": skipped, "kinetics": kinetics}
 
 
 def calibration_from_report(report: dict, settings: Settings, *, fit_date: str | None = None):
@@ -719,6 +725,13 @@ def format_report(report: dict) -> str:
     for t in report["trends"]:
         lines.append(f"- {t['check']}: source {t['source']}" + (f"; {t['note']}" if t["note"] else ""))
     lines.append("")
+    if report.get("kinetics"):
+        from .rate_checks import format_rate_checks
+
+        lines.extend(format_rate_checks(report["kinetics"]))
+        if report["kinetics"].get("plot"):
+            lines.append(f"plot: {report['kinetics']['plot']}")
+        lines.append("")
     lines.append("## experimental sources")
     for src, keys in sources.items():
         lines.append(f"- [{', '.join(sorted(keys))}] {src}")
@@ -786,6 +799,12 @@ def write_outputs(report: dict, folder: str | Path, plots: bool = True) -> list[
                 path = plot_set(s, folder / f"check_{key}.png")
                 s["plot"] = path.name  # relative to the report folder
                 written.append(path)
+    if plots and report.get("kinetics"):
+        from .rate_checks import plot_rates
+
+        path = plot_rates(report["kinetics"], folder / "check_rates.png")
+        report["kinetics"]["plot"] = path.name
+        written.append(path)
     md = folder / "check_report.md"
     md.write_text(format_report(report) + "\n", encoding="utf-8")
     js = folder / "check_report.json"
@@ -822,8 +841,9 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     known = reference_sets()
     sets = [s.strip() for s in args.sets.split(",")] if args.sets else None
-    if sets and any(s not in known for s in sets):
-        print(f"cationcalc: error: unknown set in {args.sets!r}: choose from {', '.join(known)}", file=sys.stderr)
+    if sets and any(s not in known and s != "rates" for s in sets):
+        print(f"cationcalc: error: unknown set in {args.sets!r}: choose from {', '.join(known)}, rates",
+              file=sys.stderr)
         return 2
     if args.workers is not None and args.workers < 1:
         print("cationcalc: error: --workers must be at least 1", file=sys.stderr)
@@ -845,7 +865,8 @@ def main(argv: list[str] | None = None) -> int:
         print(json.dumps(report, indent=1, ensure_ascii=False, default=float))
     else:
         print(format_report(report))
-    failed = any(e.get("error") for s in report["sets"].values() for e in s["entries"])
+    failed = any(e.get("error") for s in report["sets"].values() for e in s["entries"]) or any(
+        e.get("error") for e in (report.get("kinetics") or {}).get("entries", []))
     return 1 if failed else 0
 
 

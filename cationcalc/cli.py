@@ -5,7 +5,8 @@
     cationcalc thermo "C" "[Cl-]" --temperature 298.15
     cationcalc ionize "CC(Cl)c1ccccc1" "CC(C)(C)O" --acid --solvent water
     cationcalc sites "CC(C)CC"
-    cationcalc ladder "CC(*)c1ccccc1" --solvent water
+    cationcalc ladder "CC(*)c1ccccc1" --solvent water --medium 80E20W
+    cationcalc rate "ClC(c1ccccc1)c1ccccc1" "CC(C)(C)Cl" --medium "80% ethanol"
 
 Inputs come as arguments or from ``-i FILE`` (one SMILES per line with an
 optional name after whitespace; ``-`` reads standard input).  A terminal gets
@@ -81,7 +82,8 @@ COLUMNS = {
     "ionize": [("name", "name"), ("substrate_smiles", "substrate"), ("leaving_group", "X"), ("site_atom", "atom"),
                ("cation_class", "cation"), ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"),
                ("dG_ion_xtb_kcal_mol", "ΔG_ion GFN2-xTB"), ("ddG_ion_kcal_mol", "ΔΔG_ion"),
-               ("equilibrium_factor", "K/K_ref (equilibrium)"), ("verdict", "verdict"),
+               ("equilibrium_factor", "K/K_ref (equilibrium)"), ("half_life_text", "half-life"),
+               ("verdict", "verdict"),
                ("shift_summary", "downhill 1,2-shift (ΔG)")],
     "sites": [("name", "name"), ("rank", "#"), ("site_atom", "atom"), ("equivalent_atoms", "equivalent"),
               ("leaving_group", "X"), ("cation_smiles", "cation"), ("cation_class", "class"),
@@ -91,7 +93,12 @@ COLUMNS = {
     "ladder": [("name", "name"), ("rank", "#"), ("leaving_group", "leaving group"),
                ("substrate_smiles", "substrate"), ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"),
                ("dG_ion_vs_best_kcal_mol", "Δ vs #1"), ("solvolysis_k_rel", "k_rel (solvolysis)"),
+               ("half_life_rank", "# by rate"), ("half_life_text", "half-life"), ("lg_k_ion", "lg k"),
                ("verdict", "verdict")],
+    "rate": [("name", "name"), ("substrate_smiles", "substrate"), ("leaving_group", "X"), ("medium", "medium"),
+             ("k_ion_per_s", "k s⁻¹"), ("lg_k_ion_text", "lg k ± u"), ("half_life_text", "half-life"),
+             ("half_life_range_text", "range (± u)"), ("E_f", "E_f"), ("N_f", "N_f"), ("s_f", "s_f"),
+             ("lifetime_text", "cation lifetime"), ("applicability_status", "model"), ("verdict", "verdict")],
     "shifts": [("name", "name"), ("cation_smiles", "cation"), ("parent_relaxation", "as optimised"),
                ("flagged_summary", "downhill 1,2-shifts (ΔG kcal/mol)"), ("sink_smiles", "sink"),
                ("sink_dG_kcal_mol", "ΔG to sink"), ("path_text", "path"),
@@ -100,7 +107,7 @@ COLUMNS = {
 
 TITLES = {"hia": "hydride-ion affinity", "heterolysis": "heterolysis R–X → R⁺ + X⁻", "thermo": "thermochemistry",
           "ionize": "ionization R–X → R⁺ + X", "sites": "ionization sites", "ladder": "leaving-group ladder",
-          "shifts": "1,2-shifts and rearrangements"}
+          "shifts": "1,2-shifts and rearrangements", "rate": "ionization rate R–X → R⁺ + X⁻"}
 
 
 def _ionization_footer(task: str, records: list[dict]) -> list[str]:
@@ -153,8 +160,9 @@ def _print_table(task: str, records: list[dict]) -> None:
     console = Console(width=max(120, Console().width))
     first = records[0] if records else {}
     title = TITLES[task]
-    table = Table(title=f"{title} — {first.get('level', '')}, {first.get('temperature_k', 298.15)} K",
-                  title_justify="left")
+    heading = (f"{title} — E_f from HIA at {first.get('level', '')}, k at {first.get('rate_temperature_k')} K"
+               if task == "rate" else f"{title} — {first.get('level', '')}, {first.get('temperature_k', 298.15)} K")
+    table = Table(title=heading, title_justify="left")
     # columns nobody has a value for are left out (e.g. HIA columns of a leaving-group site scan)
     columns = [(key, header) for key, header in COLUMNS[task]
                if key in ("cation_smiles", "substrate_smiles", "smiles")
@@ -179,6 +187,7 @@ def _print_table(task: str, records: list[dict]) -> None:
             relaxed = r.get("relaxed_cation_smiles") or r.get("relaxed_smiles") or "a bridged structure"
             notes.append(f"[yellow]relaxed to {escape(relaxed)}[/yellow]")
         notes += [escape(w) for w in r.get("warnings", [])]
+        notes += [escape(n) for n in r.get("kinetic_notes", []) if not n.startswith("medium ")]
         if task in ("ionize", "sites", "ladder") and r.get("verdict") not in (None, "SN1/E1 plausible", "borderline"):
             notes.insert(0, escape(r["verdict_reason"]))
         table.add_row(*row, "\n".join(notes))
@@ -187,6 +196,11 @@ def _print_table(task: str, records: list[dict]) -> None:
         console.print(f"[red]error {i}[/red]: {escape(message)}", highlight=False)
     if task in ("ionize", "sites", "ladder"):
         for line in _ionization_footer(task, records):
+            console.print(escape(line), highlight=False)
+    if task == "rate" or any(r.get("medium") for r in records):
+        from .rate_tasks import rate_footer
+
+        for line in rate_footer(records):
             console.print(escape(line), highlight=False)
     if task == "hia" and first.get("reference"):
         console.print(f"Anchor: {first['reference']} cation, HIA {first['reference_hia_kcal_mol']} kcal/mol "
@@ -207,8 +221,9 @@ def _write_csv(records: list[dict]) -> str:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(prog="cationcalc", description="Carbocation stability from GFN2-xTB: "
-                                     "hydride-ion affinities, heterolysis and ionization energies, ionization sites, "
+    parser = argparse.ArgumentParser(prog="cationcalc", description="Carbocation stability and ionization rates "
+                                     "from GFN2-xTB: hydride-ion affinities, heterolysis and ionization energies, "
+                                     "rate constants and half-lives in solvolysis media, ionization sites, "
                                      "leaving-group ladders, shifts, thermochemistry.")
     parser.add_argument("--version", action="version", version=f"cationcalc {__version__}")
     sub = parser.add_subparsers(dest="command", required=True)
@@ -277,6 +292,31 @@ def build_parser() -> argparse.ArgumentParser:
     p_shifts.add_argument("--ceiling", type=float, default=25.0,
                           help="highest intermediate (kcal/mol above the parent) a path may pass (default 25)")
     p_shifts.add_argument("--barriers", action="store_true", help="NEB barrier for each flagged step (slow)")
+    p_ion.add_argument("--medium", default=None,
+                       help="solvolysis medium for rate constants and half-lives (80E20W, '80%% ethanol', "
+                            "'97%% TFE (w/w)', water, …); the verdict then speaks in time")
+    p_ladder.add_argument("--medium", default=None,
+                          help="solvolysis medium: half-life per leaving group where its N_f is published")
+    p_rate = sub.add_parser("rate", help="rate constant, half-life and cation lifetime of R–X in a solvolysis medium")
+    p_rate.add_argument("smiles", nargs="*", help="substrate SMILES inputs")
+    p_rate.add_argument("-i", "--input", help="file with one SMILES per line (optional name after it); - for stdin")
+    p_rate.add_argument("--medium", required=True,
+                        help="solvolysis medium as the trade writes it: 80E20W, '80%% ethanol', 'ethanol/water 80:20', "
+                             "'97%% TFE (w/w)', acetone, water")
+    p_rate.add_argument("--temperature", type=float, default=298.15,
+                        help="temperature in K for k and the half-life (273.15–423.15; default 298.15)")
+    p_rate.add_argument("--leaving-group", default="auto", help="leaving group to break (chloride, bromide, …), or auto")
+    p_rate.add_argument("--conformers", type=int, default=None, help="cap on embedded conformers per species")
+    p_rate.add_argument("--workers", type=int, default=None, help="processes (default: one per core)")
+    p_rate.add_argument("--force", action="store_true", help="compute species above the size limit")
+    rate_out = p_rate.add_mutually_exclusive_group()
+    rate_out.add_argument("--json", action="store_true", help="print a JSON list of records")
+    rate_out.add_argument("--csv", action="store_true", help="print CSV records")
+    p_rate.add_argument("--profile", action="store_true", help="print where the time went (stderr)")
+    p_rate.add_argument("--store", default=None, metavar="FILE",
+                        help="SQLite result store: species already in it are read, new ones added")
+    p_rate.set_defaults(solvent="none", engine="tblite", pressure=101325.0, rrho=False, mix_enantiomers=False,
+                        calibrated=False, refine=None)
     sub.add_parser("check", help="recompute the bundled reference sets and report errors, trends and plots "
                    "(cationcalc check [--quick]; see check --help)", add_help=False)
     sub.add_parser("run", help="run a YAML study file (cationcalc run STUDY.yaml [--dry-run]; see run --help)",
@@ -308,7 +348,13 @@ def main(argv: list[str] | None = None) -> int:
         if getattr(args, "calibrated", False) and args.command not in ("hia", "sites"):
             raise ValueError("--calibrated applies to hydride-ion affinities (hia, sites); other quantities "
                              "have no calibration and carry their uncertainty without it")
-        if args.command == "ionize" and args.leaving_group != "auto":
+        if getattr(args, "medium", None):
+            from .media import medium
+            from .rate_tasks import check_temperature
+
+            medium(args.medium)
+            check_temperature(args.temperature)
+        if args.command in ("ionize", "rate") and args.leaving_group != "auto":
             from .leaving_groups import leaving_group
 
             leaving_group(args.leaving_group)
@@ -383,6 +429,10 @@ def main(argv: list[str] | None = None) -> int:
                 options = {"acid": args.acid, "hydride": args.hydride, "shifts": not args.no_shifts}
             elif args.command == "ladder":
                 options = {"groups": [g.strip() for g in args.groups.split(",") if g.strip()] if args.groups else None}
+            elif args.command == "rate":
+                options = {"leaving_group": args.leaving_group}
+            if getattr(args, "medium", None):
+                options.update({"medium": args.medium, "rate_temperature_k": args.temperature})
             if args.refine:
                 options["refine"] = args.refine
                 options["refine_log"] = lambda line: print(line, file=sys.stderr, flush=True)

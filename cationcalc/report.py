@@ -68,6 +68,8 @@ TABLE_COLUMNS = {
     "heterolysis": ["leaving_group", "dE_het_kcal_mol", "dH_het_kcal_mol", "dG_het_kcal_mol", "dG_het_kJ_mol",
                     "cation_smiles"],
     "thermo": ["smiles", "E_hartree", "zpe_kcal_mol", "H_kcal_mol", "G_kcal_mol", "S_J_mol_K", "point_group"],
+    "rate": ["leaving_group", "medium", "k_ion_per_s", "lg_k_ion_text", "half_life_text", "half_life_range_text",
+             "E_f", "E_f_computed", "N_f", "s_f", "lifetime_text", "applicability_status", "verdict"],
 }
 
 
@@ -527,6 +529,20 @@ def report_html(plan, records: list[dict], results: list[SpeciesResult], prov: d
         for task_name, title, hint, png in ladders:
             parts.append(f"<h3>{esc(title)} ({esc(task_name)})</h3><p>Sorted by the first solvent; {esc(hint)}. "
                          f"Error bars where the records carry an uncertainty.</p>{_img(png, f'ladder of {title}')}")
+
+    # how fast: half-lives (rate task, and ionize/ladder records given a medium)
+    timed = [r for r in records if isinstance(r.get("half_life_s"), (int, float)) and not r.get("error")]
+    if timed:
+        from .rate_figures import half_life_png
+
+        outside = [r for r in records if r.get("applicability_status") == "outside the SN1 model"]
+        parts.append("<h2>How fast: half-lives</h2><p>Half-life of R–X from lg k = s<sub>f</sub>(N<sub>f</sub> + "
+                     "E<sub>f</sub>) in each medium at the stated temperature; bars span the lg k uncertainty.</p>"
+                     + _img(half_life_png(timed), "half-life chart"))
+        if outside:
+            parts.append("<p>Outside the SN1 model (no half-life given): " + "; ".join(
+                f"{esc(_label(r))} in {esc(str(r.get('medium')))}: {esc(str(r.get('applicability')))}"
+                for r in outside) + "</p>")
 
     # tables
     parts.append("<h2>Results</h2>")

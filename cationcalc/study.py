@@ -77,7 +77,7 @@ from .models import Settings, species_key
 from .store import StoreError
 
 #: every task a workflow may name; which of them this installation can run is checked at plan time
-KNOWN_TASKS = ("hia", "heterolysis", "thermo", "ionize", "sites", "ladder", "shifts")
+KNOWN_TASKS = ("hia", "heterolysis", "thermo", "ionize", "sites", "ladder", "shifts", "rate")
 OUTPUT_FORMATS = ("csv", "json", "sdf", "xyz", "html")
 
 
@@ -207,11 +207,22 @@ class RefineOptions(_Refinable):
     pass
 
 
+def _known_medium(value):
+    if value is None:
+        return None
+    from .media import medium
+
+    return medium(str(value)).code  # InputError (a ValueError) lists the known media
+
+
 class IonizeOptions(_Refinable):
     leaving_group: str = Field("auto", description="leaving group name, or auto")
     acid: bool = Field(False, description="protonate alcohol and ether oxygens (R–OH → R–OH2+)")
     reference_substrate: str | None = Field(None, description="SMILES that ΔΔG_ion is measured against")
     shifts: bool = Field(True, description="screen the cation formed for downhill 1,2-shifts")
+    medium: str | None = Field(None, description="solvolysis medium (80E20W, '80% ethanol', …): adds k and half-life")
+
+    _medium = field_validator("medium")(classmethod(lambda cls, v: _known_medium(v)))
 
 
 class SitesOptions(_Refinable):
@@ -222,6 +233,28 @@ class SitesOptions(_Refinable):
 
 class LadderOptions(_Refinable):
     groups: list[str] | None = Field(None, description="only these leaving groups")
+    medium: str | None = Field(None, description="solvolysis medium: half-life per leaving group with a published N_f")
+
+    _medium = field_validator("medium")(classmethod(lambda cls, v: _known_medium(v)))
+
+
+class RateOptions(_Strict):
+    medium: list[str] = Field(..., min_length=1, description="solvolysis media (80E20W, '97% TFE (w/w)', water, …)")
+    temperature_k: float = Field(298.15, description="temperature of k and the half-life, K (273.15–423.15)")
+    leaving_group: str = Field("auto", description="leaving group name, or auto")
+
+    @field_validator("medium", mode="before")
+    @classmethod
+    def _media(cls, value):
+        values = [value] if isinstance(value, str) else list(value or [])
+        return [_known_medium(v) for v in values]
+
+    @field_validator("temperature_k")
+    @classmethod
+    def _temperature(cls, value):
+        from .rate_tasks import check_temperature
+
+        return check_temperature(value)
 
 
 class ShiftsOptions(_Strict):
@@ -239,6 +272,7 @@ class TaskSet(_Strict):
     sites: SitesOptions | None = None
     ladder: LadderOptions | None = None
     shifts: ShiftsOptions | None = None
+    rate: RateOptions | None = None
 
     @model_validator(mode="after")
     def _some(self):
@@ -708,6 +742,19 @@ def known_needs(task: PlannedTask, settings: Settings, force: bool):
     return list(dict.fromkeys(needs)), rejected
 
 
+def _rate_prefetch(task: PlannedTask, plan: Plan) -> tuple[Settings, list]:
+    """The rate task's species and the settings they are computed at (the E_f descriptor's level)."""
+    from .rate_tasks import descriptor_settings
+
+    settings = descriptor_settings(plan.settings[plan.solvents[0]])
+    found = known_needs(task, settings, plan.force)
+    return settings, (found[0] if found else [])
+
+
+def _row_label(task_name: str, solvent: str | None) -> str:
+    return "E_f level" if task_name == "rate" else _label(solvent)
+
+
 def _label(solvent: str | None) -> str:
     return solvent or "gas"
 
@@ -737,19 +784,27 @@ def describe_plan(plan: Plan) -> str:
     unknown = False
     rejected_notes: list[str] = []
     for solvent in plan.solvents:
-        settings = plan.settings[solvent]
         for task in plan.tasks:
+            settings = plan.settings[solvent]
+            if task.name == "rate":  # once, at the E_f descriptor's level
+                if solvent != plan.solvents[0] or not task.items:
+                    continue
+                from .rate_tasks import descriptor_settings
+
+                settings = descriptor_settings(settings)
+                task = PlannedTask(task.name, {**task.options, "medium": task.options["medium"][0]}, task.runner,
+                                   task.items)
             found = known_needs(task, settings, plan.force)
             if found is None:
                 unknown = True
-                lines.append(f"  {_label(solvent):<16}{task.name:<13}{len(task.items):>7}{'?':>10}"
+                lines.append(f"  {_row_label(task.name, solvent):<16}{task.name:<13}{len(task.items):>7}{'?':>10}"
                              f"{'(task)':>9}{'':>8}")
                 continue
             needs, rejected = found
             keys = {species_key(sp.smiles, sp.charge, sp.multiplicity, settings) for sp in needs}
             total_needed |= keys
             stored = store.count_present(keys) if store else 0
-            lines.append(f"  {_label(solvent):<16}{task.name:<13}{len(task.items):>7}{len(rejected):>10}"
+            lines.append(f"  {_row_label(task.name, solvent):<16}{task.name:<13}{len(task.items):>7}{len(rejected):>10}"
                          f"{len(keys):>9}{stored:>8}")
             for name, error in rejected:
                 note = f"  rejected by {task.name}: {name}: {error}"
@@ -840,34 +895,39 @@ def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> 
     store = ResultStore(plan.store_path)
     try:
         # 1. every species whose need is known, all solvents, through one pool per solvent
-        prefetch: dict[str | None, list] = {}
+        prefetch: list[tuple[Settings, list]] = []
         for solvent in plan.solvents:
             wanted: list = []
             for task in plan.tasks:
+                if task.name == "rate":
+                    continue
                 found = known_needs(task, plan.settings[solvent], plan.force)
                 if found:
                     wanted.extend(found[0])
-            prefetch[solvent] = list(dict.fromkeys(wanted))
-        missing = sum(1 for s, sps in prefetch.items() for sp in sps
-                      if species_key(sp.smiles, sp.charge, sp.multiplicity, plan.settings[s]) not in store)
+            prefetch.append((plan.settings[solvent], list(dict.fromkeys(wanted))))
+        for task in plan.tasks:  # the rate task's species are at the E_f calibration's level, whatever the solvents
+            if task.name == "rate" and task.items:
+                prefetch.append(_rate_prefetch(task, plan))
+        missing = sum(1 for settings, sps in prefetch for sp in sps
+                      if species_key(sp.smiles, sp.charge, sp.multiplicity, settings) not in store)
         bar = _Progress(missing, show_progress)
         records: list[dict] = []
         try:
             with sigint_guard(), scheduler_context(plan.scheduler, plan.workers):
                 from .executors import compute_many
 
-                for solvent in plan.solvents:
-                    if prefetch[solvent]:
-                        compute_many(prefetch[solvent], plan.settings[solvent], workers=plan.workers,
-                                     progress=bar.callback(plan.settings[solvent]), store=store)
+                for settings, wanted in prefetch:
+                    if wanted:
+                        compute_many(wanted, settings, workers=plan.workers, progress=bar.callback(settings),
+                                     store=store)
                     if sigint_seen():
                         raise KeyboardInterrupt
                 # 2. the tasks: species come from the store (or are computed by the task itself)
                 for solvent in plan.solvents:
                     settings = plan.settings[solvent]
                     for task in plan.tasks:
-                        if not task.items:
-                            continue
+                        if not task.items or (task.name == "rate" and solvent != plan.solvents[0]):
+                            continue  # the rate task does not depend on the study's solvents: run once
                         common = dict(workers=plan.workers, force=plan.force, progress=bar.callback(settings),
                                       store=store)
                         if task.name == "shifts":

@@ -26,7 +26,7 @@ from .species import InputError, Species, carbocation, heterolysis_fragments, hy
 from .ionization_tasks import attach_shifts, collate, prepare_ionize, prepare_ladder, prepare_sites
 from .records import Prepared, _base, _collect_warnings, _profile
 
-TASKS = ("hia", "heterolysis", "thermo", "ionize", "sites", "ladder")
+TASKS = ("hia", "heterolysis", "thermo", "ionize", "sites", "ladder", "rate")
 
 
 class BatchInterrupted(Exception):
@@ -163,6 +163,15 @@ def prepare(task: str, text: str, name: str, settings: Settings, options: dict, 
     if task == "sites":
         return prepare_sites(text, name, settings, acid=options.get("acid", False),
                              hydride=options.get("hydride", False), force=force)
+    if task == "rate":
+        from .rate_tasks import prepare_rate
+
+        from .media import medium
+
+        chosen = options["medium"][0] if isinstance(options["medium"], (list, tuple)) else options["medium"]
+        return prepare_rate(text, name, settings, medium=medium(chosen) if isinstance(chosen, str) else chosen,
+                            temperature_k=options.get("rate_temperature_k", options.get("temperature_k", 298.15)),
+                            leaving_group=options.get("leaving_group", "auto"), force=force)
     return prepare_ladder(text, name, settings, groups=options.get("groups"), force=force)
 
 
@@ -190,6 +199,22 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
     if task not in TASKS:
         raise ValueError(f"unknown task {task!r}: choose one of {', '.join(TASKS)}")
     options = {"reference": reference, **options}
+    if task == "rate":  # species at the E_f calibration's level; the rate temperature enters through Eyring
+        from .media import medium
+        from .rate_tasks import descriptor_settings
+
+        chosen = options.get("medium")
+        if chosen is None or chosen == []:
+            raise ValueError("the rate task needs a medium, e.g. medium='80E20W'")
+        if "temperature_k" in options:  # a workflow's rate options name it temperature_k
+            options["rate_temperature_k"] = options.pop("temperature_k")
+        if isinstance(chosen, (list, tuple)):  # several media: one pass each, species shared through the store
+            return [r for m in chosen for r in run_task(task, items, settings, reference=reference, workers=workers,
+                                                        force=force, progress=progress, store=store,
+                                                        **{**options, "medium": m})]
+        options["medium"] = medium(chosen) if isinstance(chosen, str) else chosen
+        options.setdefault("rate_temperature_k", 298.15)
+        settings = descriptor_settings(settings)
     groups = [prepare(task, text, name, settings, options, force) for text, name in items]
     needed = [sp for group in groups for p in group if p.error is None for sp in p.needs.values()]
     interrupted = False
@@ -227,6 +252,11 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
                 r["warnings"] = list(r.get("warnings", [])) + [
                     f"DFT refinement interrupted: this value is {settings.level}"]
     for finished in finished_groups:
+        if task == "rate":
+            from .rate_tasks import collate_rates
+
+            records.extend(collate_rates(finished))
+            continue
         records.extend(collate(task, finished, settings))
     if options.get("shifts") and task in ("ionize", "sites") and not interrupted:
         try:
@@ -235,6 +265,19 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
                                     threshold_kcal_mol=options.get("shift_threshold_kcal_mol"))
         except Interrupted:
             interrupted = True
+    if options.get("medium") is not None and task in ("ionize", "ladder") and not interrupted:
+        from .rate_tasks import add_rates
+
+        try:
+            records = add_rates(task, records, settings, options["medium"],
+                                options.get("rate_temperature_k", settings.temperature_k),
+                                workers=workers, store=store, progress=progress, force=force)
+        except Interrupted:
+            interrupted = True
+    if task == "rate":
+        if interrupted:
+            raise BatchInterrupted(records)
+        return records
     from .uncertainty import annotate
     records = annotate(task, records, settings,
                        calibrated=bool(options.get("calibrated", False)) and not refining)

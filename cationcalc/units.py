@@ -40,6 +40,13 @@ HARTREE_EV = _c.physical_constants["Hartree energy in eV"][0]
 BOHR_ANGSTROM = _c.physical_constants["Bohr radius"][0] * 1e10
 #: thermochemical calorie, J
 CALORIE_J = _c.calorie
+#: 0 °C in K
+ZERO_CELSIUS_K = _c.zero_Celsius
+#: seconds in a minute, hour, day and Julian year (365.25 days)
+SECONDS_PER_MINUTE = _c.minute
+SECONDS_PER_HOUR = _c.hour
+SECONDS_PER_DAY = _c.day
+SECONDS_PER_YEAR = _c.Julian_year
 
 EV_TO_J_MOL = _c.eV * AVOGADRO
 EV_TO_KJ_MOL = EV_TO_J_MOL / 1000.0
