@@ -72,6 +72,22 @@ def check_temperature(temperature_k: float) -> float:
     return float(temperature_k)
 
 
+def rate_options(options: dict) -> dict:
+    """The rate task's options with ``medium`` resolved (a name, a Medium, or a one-item list) and the
+    temperature under ``rate_temperature_k`` (a workflow writes ``temperature_k``)."""
+    from .media import medium as lookup_medium
+
+    out = dict(options)
+    chosen = out.get("medium")
+    if isinstance(chosen, (list, tuple)):
+        chosen = chosen[0] if chosen else None
+    if chosen is None:
+        raise ValueError("the rate task needs a medium, e.g. medium='80E20W'")
+    out["medium"] = lookup_medium(chosen) if isinstance(chosen, str) else chosen
+    out["rate_temperature_k"] = out.pop("temperature_k", out.get("rate_temperature_k", ELECTROFUGE_TEMPERATURE_K))
+    return out
+
+
 def descriptor_settings(settings: Settings) -> Settings:
     """The settings the E_f calibration was computed with (gas phase, 298.15 K, tblite), user's numerics kept."""
     return Settings.model_validate({**settings.model_dump(), "solvent": DESCRIPTOR_SOLVENT, "engine": "tblite",
@@ -401,5 +417,5 @@ def collate_rates(records: list[dict]) -> list[dict]:
     return ok + failed
 
 
-__all__ = ["prepare_rate", "collate_rates", "add_rates", "rate_footer", "kinetic_fields", "lifetime_fields", "applicability", "rate_class",
+__all__ = ["prepare_rate", "collate_rates", "add_rates", "rate_footer", "rate_options", "kinetic_fields", "lifetime_fields", "applicability", "rate_class",
            "tert_butyl_check", "descriptor_settings", "check_temperature", "UNCALIBRATED_CLASS_LG", "RATE_NOTE"]

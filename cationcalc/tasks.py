@@ -164,13 +164,10 @@ def prepare(task: str, text: str, name: str, settings: Settings, options: dict, 
         return prepare_sites(text, name, settings, acid=options.get("acid", False),
                              hydride=options.get("hydride", False), force=force)
     if task == "rate":
-        from .rate_tasks import prepare_rate
+        from .rate_tasks import prepare_rate, rate_options
 
-        from .media import medium
-
-        chosen = options["medium"][0] if isinstance(options["medium"], (list, tuple)) else options["medium"]
-        return prepare_rate(text, name, settings, medium=medium(chosen) if isinstance(chosen, str) else chosen,
-                            temperature_k=options.get("rate_temperature_k", options.get("temperature_k", 298.15)),
+        options = rate_options(options)
+        return prepare_rate(text, name, settings, medium=options["medium"], temperature_k=options["rate_temperature_k"],
                             leaving_group=options.get("leaving_group", "auto"), force=force)
     return prepare_ladder(text, name, settings, groups=options.get("groups"), force=force)
 
@@ -200,20 +197,14 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
         raise ValueError(f"unknown task {task!r}: choose one of {', '.join(TASKS)}")
     options = {"reference": reference, **options}
     if task == "rate":  # species at the E_f calibration's level; the rate temperature enters through Eyring
-        from .media import medium
-        from .rate_tasks import descriptor_settings
+        from .rate_tasks import descriptor_settings, rate_options
 
-        chosen = options.get("medium")
-        if chosen is None or chosen == []:
-            raise ValueError("the rate task needs a medium, e.g. medium='80E20W'")
-        if "temperature_k" in options:  # a workflow's rate options name it temperature_k
-            options["rate_temperature_k"] = options.pop("temperature_k")
-        if isinstance(chosen, (list, tuple)):  # several media: one pass each, species shared through the store
-            return [r for m in chosen for r in run_task(task, items, settings, reference=reference, workers=workers,
-                                                        force=force, progress=progress, store=store,
-                                                        **{**options, "medium": m})]
-        options["medium"] = medium(chosen) if isinstance(chosen, str) else chosen
-        options.setdefault("rate_temperature_k", 298.15)
+        if isinstance(options.get("medium"), (list, tuple)) and len(options["medium"]) > 1:
+            # several media: one pass each, species shared through the store
+            return [r for m in options["medium"] for r in run_task(
+                task, items, settings, reference=reference, workers=workers, force=force, progress=progress,
+                store=store, **{**options, "medium": m})]
+        options = rate_options(options)
         settings = descriptor_settings(settings)
     groups = [prepare(task, text, name, settings, options, force) for text, name in items]
     needed = [sp for group in groups for p in group if p.error is None for sp in p.needs.values()]

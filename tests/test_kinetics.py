@@ -302,3 +302,12 @@ def test_ionize_with_a_medium_speaks_in_time(water):
     assert r["verdict"] == kinetics.time_verdict(r["half_life_s"], "").verdict
     assert r["equilibrium_verdict"] == "SN1/E1 plausible"
     assert r["half_life_s"] == pytest.approx(math.log(2) / r["k_ion_per_s"], rel=0.01)
+
+
+def test_docstring_examples_of_the_kinetics_modules_run():
+    import doctest
+
+    from cationcalc import electrofuges, media as media_module, nucleofuges, rate_checks, rate_figures, rate_tasks
+
+    for module in (kinetics, media_module, nucleofuges, electrofuges, rate_tasks, rate_figures, rate_checks):
+        assert doctest.testmod(module).failed == 0, module.__name__
