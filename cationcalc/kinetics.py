@@ -131,7 +131,7 @@ def human_time(seconds: float | None) -> str:
     scales = [(units.SECONDS_PER_YEAR * 2, units.SECONDS_PER_YEAR, "years"), (units.SECONDS_PER_DAY * 2,
               units.SECONDS_PER_DAY, "days"), (units.SECONDS_PER_HOUR * 2, units.SECONDS_PER_HOUR, "h"),
               (units.SECONDS_PER_MINUTE * 2, units.SECONDS_PER_MINUTE, "min"), (1.0, 1.0, "s"),
-              (1e-3, 1e-3, "ms"), (1e-6, 1e-6, "µs"), (0.0, 1e-9, "ns")]
+              (1e-3, 1e-3, "ms"), (1e-6, 1e-6, "µs"), (1e-9, 1e-9, "ns"), (1e-12, 1e-12, "ps"), (0.0, 1e-15, "fs")]
     for threshold, unit, name in scales:
         if seconds >= threshold:
             value = seconds / unit
