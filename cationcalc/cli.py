@@ -161,7 +161,7 @@ def _print_table(task: str, records: list[dict]) -> None:
     from rich.markup import escape
     from rich.table import Table
 
-    from .species import shown
+    from .species import clipped, shown
     from .uncertainty import format_value
 
     console = Console(width=max(120, Console().width))
@@ -180,7 +180,8 @@ def _print_table(task: str, records: list[dict]) -> None:
     for r in records:
         row = []
         for key, _ in columns:
-            value = r.get(key, r.get("input") if key in ("cation_smiles", "substrate_smiles", "smiles") else "")
+            value = r.get(key, clipped(r.get("input", ""))
+                          if key in ("cation_smiles", "substrate_smiles", "smiles") else "")
             spread = r.get(key.replace("_kcal_mol", "_uncertainty_kcal_mol")) if key.endswith("_kcal_mol") else None
             if isinstance(value, (int, float)) and spread is not None:
                 value = format_value(value, spread, digits=1)  # e.g. 233.4 ± 6.1

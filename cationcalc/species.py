@@ -49,6 +49,12 @@ class InputError(ValueError):
     """A user input that cationcalc refuses, with a one-line reason and fix."""
 
 
+def clipped(text: str, limit: int = 60) -> str:
+    """``text`` cut to about ``limit`` characters with its length said (a 100 kB SMILES is not echoed)."""
+    text = str(text)
+    return text if len(text) <= limit else text[: limit - 20] + f"… ({len(text)} characters)"
+
+
 def shown(text: str, limit: int = 60) -> str:
     """``text`` quoted for a message, cut to ``limit`` characters (a 100 kB SMILES is not echoed)."""
     text = str(text)
