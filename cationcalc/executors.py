@@ -348,13 +348,16 @@ def _dask_client(scheduler, workers: int = 1):
         import shutil
         import tempfile
 
+        import dask
+
         # the workers' scratch space in a folder of our own, removed afterwards (Dask would leave
         # dask-scratch-space/ in the system temp folder)
         scratch = tempfile.mkdtemp(prefix="cationcalc-dask-")
         try:
-            cluster = distributed.LocalCluster(n_workers=max(1, int(workers)), threads_per_worker=1,
-                                               processes=True, dashboard_address=None, env=dict(_WORKER_ENV),
-                                               silence_logs=40, local_directory=scratch)
+            with dask.config.set({"temporary-directory": scratch}):  # scheduler and nannies too
+                cluster = distributed.LocalCluster(n_workers=max(1, int(workers)), threads_per_worker=1,
+                                                   processes=True, dashboard_address=None,
+                                                   env=dict(_WORKER_ENV), silence_logs=40, local_directory=scratch)
             try:
                 client = distributed.Client(cluster)
                 try:
