@@ -33,6 +33,11 @@ Schema (every key optional except ``study``, ``species`` and ``tasks``)::
 ``scheduler`` is ``processes`` (local pool), ``dask-local`` (a local Dask
 cluster) or the address of a Dask scheduler (``tcp://host:8786``).  Paths are
 relative to the workflow file; ``store`` is relative to the output folder.
+Species files, the output folder and the store must lie inside the workflow
+file's folder (``cationcalc run --allow-outside-paths`` lifts this; /proc,
+/sys and /dev are never read); species files are regular ``.smi``/``.txt``,
+``.csv`` or ``.sdf`` files.  YAML aliases (``*name``) are refused.
+``temperature_k`` is 50-3000 K and ``pressure_pa`` 1-1e7 Pa.
 A species entry's ``tasks`` restricts which tasks run on it.  Mistakes are
 reported as ``FILE:LINE: ...`` naming the key, with the closest valid key.
 
@@ -680,8 +685,9 @@ def build_plan(loaded: LoadedWorkflow, *, output: str | None = None, workers: in
     """Resolve files, tasks and settings; raises WorkflowError (FILE:LINE: ...).
 
     Species files, the output folder and the store must resolve inside the workflow file's
-    folder (the store may also sit in the output folder; ``output`` given here is the user's own
-    choice and is not confined) unless ``allow_outside``; species files must be regular files.
+    folder (the store may also sit in the output folder; ``output`` given here, and the store
+    relative to it, are the user's own choice and are not confined) unless ``allow_outside``;
+    species files must be regular files.  /proc, /sys and /dev are always refused.
     """
     import stat
 
@@ -767,7 +773,7 @@ def build_plan(loaded: LoadedWorkflow, *, output: str | None = None, workers: in
         output_dir = (base / "cationcalc-output" / wf.study).resolve()
     store_path = confined_path(str(output_dir / wf.output.store), base,
                                f"{path}:{loaded.line_of(('output', 'store'))}", "store (key output.store)",
-                               allow_outside=allow_outside, also=output_dir)
+                               allow_outside=allow_outside or output is not None, also=output_dir)
     return Plan(loaded=loaded, items=items, solvents=list(wf.method.solvent), tasks=planned,
                 settings={s: wf.settings_for(s) for s in wf.method.solvent}, output_dir=output_dir,
                 store_path=store_path, input_files=input_files, sources=sources,
