@@ -323,7 +323,11 @@ def main(argv: list[str] | None = None) -> int:
 
     parser = build_parser()
     try:
-        args = parser.parse_args(split_refine(argv))
+        args, extra = parser.parse_known_args(split_refine(argv))
+        # SMILES after an option (hia A --refine B) are inputs too; anything else is a usage error
+        if any(token.startswith("-") and token != "-" for token in extra):
+            parser.error(f"unrecognized arguments: {' '.join(extra)}")
+        args.smiles = list(args.smiles) + extra
     except SystemExit as exc:  # one-line usage error (or --help)
         return int(exc.code or 0)
     from .engines.solvents import normalise_solvent

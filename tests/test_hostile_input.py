@@ -94,6 +94,22 @@ def test_refine_never_swallows_a_smiles():
     assert parser.parse_args(["hia", "C[CH+]C"]).refine is None
 
 
+def test_smiles_after_a_bare_refine_are_inputs(monkeypatch):
+    import cationcalc.cli as cli
+    import cationcalc.engines.pyscf_engine as pyscf_engine
+
+    seen = {}
+
+    def fake_run(args, items, settings, workers, progress, store):
+        seen["items"], seen["refine"] = items, args.refine
+        return []
+
+    monkeypatch.setattr(pyscf_engine, "require_pyscf", lambda: None)
+    monkeypatch.setattr(cli, "_run", fake_run)
+    assert main(["hia", "[CH2+]c1ccccc1", "--refine", "C[CH+]C", "--json"]) == 0
+    assert [t for t, _ in seen["items"]] == ["[CH2+]c1ccccc1", "C[CH+]C"]
+
+
 # ---------------------------------------------------------------------------------------------
 # 12. help, units and plan labels
 # ---------------------------------------------------------------------------------------------
@@ -370,6 +386,25 @@ def test_sigterm_keeps_what_finished_and_exits_non_zero(tmp_path, workers):
     finished = [r for r in records if "error" not in r]
     assert len(records) == len(INPUTS) and 1 <= len(finished) < len(INPUTS)
     assert stored_species(store) >= len(finished)
+
+
+def test_sigterm_stops_a_study_like_ctrl_c(tmp_path):
+    species_lines = "\n".join(f'  - {{smiles: "{s}", name: m{i}}}' for i, s in enumerate(INPUTS))
+    path = write(tmp_path, f"study: term\nspecies:\n{species_lines}\ntasks: [thermo]\n"
+                           "conformers: {max_conformers: 3}\noutput: {folder: out}\nexecution: {workers: 1}\n")
+    store = tmp_path / "out" / "store.sqlite"
+    proc = subprocess.Popen([sys.executable, "-m", "cationcalc.cli", "run", str(path), "--quiet"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=_env(tmp_path))
+    deadline = time.monotonic() + 120
+    while stored_species(store) < 1:
+        assert proc.poll() is None, proc.communicate()
+        assert time.monotonic() < deadline
+        time.sleep(0.02)
+    proc.send_signal(signal.SIGTERM)
+    out, err = proc.communicate(timeout=60)
+    assert proc.returncode == 143 and "stopped by SIGTERM" in err and "resume" in err, err
+    assert 1 <= stored_species(store) < len(INPUTS)
+    assert not (tmp_path / "out" / "results.json").exists()
 
 
 def _children(pid: int) -> set[int]:
