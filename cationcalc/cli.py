@@ -11,7 +11,8 @@ Inputs come as arguments or from ``-i FILE`` (one SMILES per line with an
 optional name after whitespace; ``-`` reads standard input).  A terminal gets
 a table; ``--json`` and ``--csv`` are for machines.  Exit status: 0 when every
 input succeeded, 1 when some failed (the others are still printed), 2 for bad
-usage, 130 when interrupted (finished records are still printed).
+usage, 130 when interrupted, 143 when stopped by SIGTERM (finished records are
+still printed).
 """
 
 from __future__ import annotations
