@@ -813,13 +813,15 @@ def write_outputs(report: dict, folder: str | Path, plots: bool = True) -> list[
 
 
 def build_parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(prog="cationcalc check", description="Recompute the bundled reference sets "
+    from .arguments import Parser, positive_int_arg
+
+    p = Parser(prog="cationcalc check", description="Recompute the bundled reference sets "
                                 "(gas-phase HIA, σ⁺, Mayr E, pKR⁺) and trend checks; print statistics and write plots.")
-    p.add_argument("--quick", action="store_true", help="small subset (under two minutes on two cores)")
+    p.add_argument("--quick", action="store_true", help="a small subset of cheap species (a re-run reads the store)")
     p.add_argument("--solvent", default="none", help="medium of the HIA sets and trends (default gas); the Mayr set "
                    "is always in dichloromethane and the pKR+ set in water, as measured")
     p.add_argument("--engine", default="tblite", choices=["tblite", "xtb"], help="GFN2-xTB implementation")
-    p.add_argument("--workers", type=int, default=None, help="processes (default: one per core)")
+    p.add_argument("--workers", type=positive_int_arg, default=None, help="processes, 1 or more (default: one per core)")
     p.add_argument("--output", default="cationcalc-check", help="folder for the report, plots and result store")
     p.add_argument("--sets", default=None, help="comma-separated set keys (default: all)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
@@ -833,7 +835,10 @@ def main(argv: list[str] | None = None) -> int:
     from .executors import default_workers
     from .store import ResultStore
 
-    args = build_parser().parse_args(sys.argv[1:] if argv is None else list(argv))
+    try:
+        args = build_parser().parse_args(sys.argv[1:] if argv is None else list(argv))
+    except SystemExit as exc:  # one-line usage error (or --help)
+        return int(exc.code or 0)
     try:
         solvent = normalise_solvent(args.solvent)
     except ValueError as exc:

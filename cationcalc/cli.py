@@ -12,13 +12,15 @@ Inputs come as arguments or from ``-i FILE`` (one SMILES per line with an
 optional name after whitespace; ``-`` reads standard input).  A terminal gets
 a table; ``--json`` and ``--csv`` are for machines.  Exit status: 0 when every
 input succeeded, 1 when some failed (the others are still printed), 2 for bad
-usage, 130 when interrupted (finished records are still printed).
+usage, 130 when interrupted, 143 when stopped by SIGTERM (finished records are
+still printed).
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import re
 import sys
 
 from . import SAFETY_NOTE, __version__
@@ -51,6 +53,18 @@ def _read_inputs(args) -> list[tuple[str, str]]:
     return items
 
 
+def _level_among_smiles(smiles: list[str]) -> str | None:
+    """A positional input that is no SMILES but reads like a DFT level (``--refine HF/STO-3G``), or None."""
+    from rdkit import Chem
+
+    from . import species as _species  # noqa: F401  (RDKit stays quiet)
+
+    for text in smiles:
+        if "/" in text and Chem.MolFromSmiles(text) is None and re.match(r"^[A-Za-z0-9()+\-]+/[A-Za-z0-9*+()/\-]+$", text):
+            return text
+    return None
+
+
 def _usage_error(message: str) -> int:
     print(f"cationcalc: error: {message}", file=sys.stderr)
     return 2
@@ -76,8 +90,8 @@ COLUMNS = {
                     ("dE_het_kcal_mol", "ΔE"), ("dH_het_kcal_mol", "ΔH"), ("dG_het_kcal_mol", "ΔG kcal/mol"),
                     ("dG_het_xtb_kcal_mol", "ΔG GFN2-xTB"),
                     ("dG_het_kJ_mol", "ΔG kJ/mol")],
-    "thermo": [("smiles", "species"), ("E_hartree", "E/Eh"), ("zpe_kcal_mol", "ZPE"), ("H_kcal_mol", "H−E"),
-               ("S_J_mol_K", "S J/mol/K"), ("G_kcal_mol", "G−E"), ("point_group", "group"),
+    "thermo": [("smiles", "species"), ("E_hartree", "E/Eh"), ("zpe_kcal_mol", "ZPE kcal/mol"),
+               ("H_kcal_mol", "H−E kcal/mol"), ("S_J_mol_K", "S J/mol/K"), ("G_kcal_mol", "G−E kcal/mol"), ("point_group", "group"),
                ("symmetry_number", "σ"), ("imaginary_frequencies_cm1", "imag. cm⁻¹")],
     "ionize": [("name", "name"), ("substrate_smiles", "substrate"), ("leaving_group", "X"), ("site_atom", "atom"),
                ("cation_class", "cation"), ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"),
@@ -155,6 +169,7 @@ def _print_table(task: str, records: list[dict]) -> None:
     from rich.markup import escape
     from rich.table import Table
 
+    from .species import clipped, shown
     from .uncertainty import format_value
 
     console = Console(width=max(120, Console().width))
@@ -174,7 +189,8 @@ def _print_table(task: str, records: list[dict]) -> None:
     for r in records:
         row = []
         for key, _ in columns:
-            value = r.get(key, r.get("input") if key in ("cation_smiles", "substrate_smiles", "smiles") else "")
+            value = r.get(key, clipped(r.get("input", ""))
+                          if key in ("cation_smiles", "substrate_smiles", "smiles") else "")
             spread = r.get(key.replace("_kcal_mol", "_uncertainty_kcal_mol")) if key.endswith("_kcal_mol") else None
             if isinstance(value, (int, float)) and spread is not None:
                 value = format_value(value, spread, digits=1)  # e.g. 233.4 ± 6.1
@@ -182,7 +198,7 @@ def _print_table(task: str, records: list[dict]) -> None:
         notes = []
         if r.get("error"):
             notes.append(f"[red]error {len(errors) + 1} (below)[/red]")
-            errors.append(f"{r.get('input', '')}: {r['error']}")
+            errors.append(f"{shown(r.get('input', ''))}: {r['error']}")
         if r.get("rearranged"):
             relaxed = r.get("relaxed_cation_smiles") or r.get("relaxed_smiles") or "a bridged structure"
             notes.append(f"[yellow]relaxed to {escape(relaxed)}[/yellow]")
@@ -221,27 +237,34 @@ def _write_csv(records: list[dict]) -> str:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(prog="cationcalc", description="Carbocation stability and ionization rates "
-                                     "from GFN2-xTB: hydride-ion affinities, heterolysis and ionization energies, "
+    from .arguments import Parser, positive_int_arg, pressure_arg, temperature_arg
+    from .models import PRESSURE_RANGE_PA, TEMPERATURE_RANGE_K
+
+    parser = Parser(prog="cationcalc", description="Carbocation stability and ionization rates from GFN2-xTB: "
+                                     "hydride-ion affinities, heterolysis and ionization energies, "
                                      "rate constants and half-lives in solvolysis media, ionization sites, "
                                      "leaving-group ladders, shifts, thermochemistry.")
     parser.add_argument("--version", action="version", version=f"cationcalc {__version__}")
     sub = parser.add_subparsers(dest="command", required=True)
     from .refine import DEFAULT_LEVEL
 
-    def common(p):
+    def common(p, calibrated: bool = False):
         p.add_argument("smiles", nargs="*", help="SMILES inputs")
         p.add_argument("-i", "--input", help="file with one SMILES per line (optional name after it); - for stdin")
         p.add_argument("--solvent", default="none", help="implicit solvent (ALPB with tblite), 'none' for gas")
         p.add_argument("--engine", default="tblite", choices=["tblite", "xtb"], help="GFN2-xTB implementation")
-        p.add_argument("--temperature", type=float, default=298.15, help="temperature in K (default 298.15)")
-        p.add_argument("--conformers", type=int, default=None, help="cap on embedded conformers per species")
-        p.add_argument("--pressure", type=float, default=101325.0,
-                       help="gas-phase standard pressure in Pa (default 101325 = 1 atm; 100000 = 1 bar)")
+        p.add_argument("--temperature", type=temperature_arg, default=298.15,
+                       help=f"temperature in K (default 298.15; {TEMPERATURE_RANGE_K[0]:g}-{TEMPERATURE_RANGE_K[1]:g})")
+        p.add_argument("--conformers", type=positive_int_arg, default=None,
+                       help="cap on embedded conformers per species (1 or more)")
+        p.add_argument("--pressure", type=pressure_arg, default=101325.0,
+                       help="gas-phase standard pressure in Pa (default 101325 = 1 atm; 100000 = 1 bar; "
+                            f"{PRESSURE_RANGE_PA[0]:g}-{PRESSURE_RANGE_PA[1]:g})")
         p.add_argument("--rrho", action="store_true", help="plain RRHO instead of quasi-RRHO entropies")
         p.add_argument("--mix-enantiomers", action="store_true",
                        help="add the entropy of mixing R ln 2 for chiral species (default off)")
-        p.add_argument("--workers", type=int, default=None, help="processes (default: one per core)")
+        p.add_argument("--workers", type=positive_int_arg, default=None,
+                       help="processes, 1 or more (default: one per core)")
         p.add_argument("--force", action="store_true", help="compute species above the size limit")
         out = p.add_mutually_exclusive_group()
         out.add_argument("--json", action="store_true", help="print a JSON list of records")
@@ -249,15 +272,18 @@ def build_parser() -> argparse.ArgumentParser:
         p.add_argument("--profile", action="store_true", help="print where the time went (stderr)")
         p.add_argument("--store", default=None, metavar="FILE",
                        help="SQLite result store: species already in it are read, new ones added")
-        p.add_argument("--calibrated", action="store_true",
-                       help="report HIA calibrated against gas-phase experiment (labelled; raw kept as hia_raw_kcal_mol)")
-        p.add_argument("--refine", nargs="?", const=DEFAULT_LEVEL, default=None, metavar="LEVEL",
-                       help=f"DFT single points (PySCF) on the GFN2-xTB structures, e.g. {DEFAULT_LEVEL} (the "
-                            "default), B3LYP-D3BJ/def2-SVP; /CPCM or /SMD after the basis solvates the DFT itself; "
-                            "GFN2-xTB values kept as *_xtb_* (pip install 'cationcalc[dft]')")
+        if calibrated:
+            p.add_argument("--calibrated", action="store_true", help="report HIA calibrated against gas-phase "
+                           "experiment (labelled; raw kept as hia_raw_kcal_mol)")
+        p.add_argument("--refine", action="store_const", const=DEFAULT_LEVEL, default=None,
+                       help=f"DFT single points (PySCF) on the GFN2-xTB structures at {DEFAULT_LEVEL}; another "
+                            "level with --refine=LEVEL, e.g. --refine=B3LYP-D3BJ/def2-SVP (/CPCM or /SMD after "
+                            "the basis solvates the DFT itself); GFN2-xTB values kept as *_xtb_* "
+                            "(pip install 'cationcalc[dft]')")
+        p.add_argument("--refine-level", dest="refine", default=None, metavar="LEVEL", help=argparse.SUPPRESS)
 
     p_hia = sub.add_parser("hia", help="hydride-ion affinities of carbocations")
-    common(p_hia)
+    common(p_hia, calibrated=True)
     p_hia.add_argument("--reference", default="tert-butyl",
                        help="anchor cation (name or SMILES from the bundled gas-phase HIA table)")
     p_het = sub.add_parser("heterolysis", help="R–X → R⁺ + X⁻ energies for alkyl halides")
@@ -274,7 +300,7 @@ def build_parser() -> argparse.ArgumentParser:
     p_ion.add_argument("--no-shifts", action="store_true",
                        help="skip the screen for downhill 1,2-shifts of the cation formed")
     p_sites = sub.add_parser("sites", help="rank every ionization site of a substrate (or every C–H by HIA)")
-    common(p_sites)
+    common(p_sites, calibrated=True)
     p_sites.add_argument("--acid", action="store_true", help="protonate alcohol/ether oxygens first")
     p_sites.add_argument("--hydride", action="store_true",
                          help="scan hydride abstraction at every C–H even when a leaving group is present")
@@ -306,8 +332,9 @@ def build_parser() -> argparse.ArgumentParser:
     p_rate.add_argument("--temperature", type=float, default=298.15,
                         help="temperature in K for k and the half-life (273.15–423.15; default 298.15)")
     p_rate.add_argument("--leaving-group", default="auto", help="leaving group to break (chloride, bromide, …), or auto")
-    p_rate.add_argument("--conformers", type=int, default=None, help="cap on embedded conformers per species")
-    p_rate.add_argument("--workers", type=int, default=None, help="processes (default: one per core)")
+    p_rate.add_argument("--conformers", type=positive_int_arg, default=None,
+                        help="cap on embedded conformers per species (1 or more)")
+    p_rate.add_argument("--workers", type=positive_int_arg, default=None, help="processes (default: one per core)")
     p_rate.add_argument("--force", action="store_true", help="compute species above the size limit")
     rate_out = p_rate.add_mutually_exclusive_group()
     rate_out.add_argument("--json", action="store_true", help="print a JSON list of records")
@@ -318,7 +345,7 @@ def build_parser() -> argparse.ArgumentParser:
     p_rate.set_defaults(solvent="none", engine="tblite", pressure=101325.0, rrho=False, mix_enantiomers=False,
                         calibrated=False, refine=None)
     sub.add_parser("check", help="recompute the bundled reference sets and report errors, trends and plots "
-                   "(cationcalc check [--quick]; see check --help)", add_help=False)
+                   "(cationcalc check [--quick]: a small subset of cheap species; see check --help)", add_help=False)
     sub.add_parser("run", help="run a YAML study file (cationcalc run STUDY.yaml [--dry-run]; see run --help)",
                    add_help=False)
     return parser
@@ -334,8 +361,17 @@ def main(argv: list[str] | None = None) -> int:
         from .checks import main as run_checks
 
         return run_checks(argv[1:])
+    from .arguments import split_refine
+
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args, extra = parser.parse_known_args(split_refine(argv))
+        # SMILES after an option (hia A --refine B) are inputs too; anything else is a usage error
+        if any(token.startswith("-") and token != "-" for token in extra):
+            parser.error(f"unrecognized arguments: {' '.join(extra)}")
+        args.smiles = list(args.smiles) + extra
+    except SystemExit as exc:  # one-line usage error (or --help)
+        return int(exc.code or 0)
     from .engines.solvents import normalise_solvent
     from .executors import default_workers
     from .reference import hia_reference
@@ -345,9 +381,6 @@ def main(argv: list[str] | None = None) -> int:
         normalise_solvent(args.solvent)
         if args.command == "hia":
             hia_reference(args.reference)
-        if getattr(args, "calibrated", False) and args.command not in ("hia", "sites"):
-            raise ValueError("--calibrated applies to hydride-ion affinities (hia, sites); other quantities "
-                             "have no calibration and carry their uncertainty without it")
         if getattr(args, "medium", None):
             from .media import medium
             from .rate_tasks import check_temperature
@@ -365,6 +398,14 @@ def main(argv: list[str] | None = None) -> int:
                 leaving_group(name)
         if args.refine:
             from .refine import parse_level
+
+            misplaced = _level_among_smiles(args.smiles)
+            if misplaced is not None:
+                try:
+                    parse_level(misplaced)
+                except ValueError as exc:
+                    return _usage_error(f"{str(exc).splitlines()[0]}; a DFT level is written --refine=LEVEL")
+                return _usage_error(f"{misplaced!r} is a DFT level, not a SMILES: write --refine={misplaced}")
 
             if args.command == "shifts":
                 return _usage_error("--refine is not available for shifts yet; refine the cations with "
@@ -413,42 +454,32 @@ def main(argv: list[str] | None = None) -> int:
             store = ResultStore(args.store)
         except StoreError as exc:
             return _usage_error(str(exc))
-    try:
-        if args.command == "shifts":
-            from .shifts import run_shifts
+    from .executors import stop_signal, terminate_as_interrupt
+    from .store import StoreError
 
-            records = run_shifts(items, settings, depth=args.depth, threshold_kcal_mol=args.threshold,
-                                 ceiling_kcal_mol=args.ceiling, barriers=args.barriers, workers=workers,
-                                 force=args.force, progress=progress, store=store)
-        else:
-            options = {}
-            if args.command == "ionize":
-                options = {"leaving_group": args.leaving_group, "acid": args.acid,
-                           "reference_substrate": args.reference_substrate, "shifts": not args.no_shifts}
-            elif args.command == "sites":
-                options = {"acid": args.acid, "hydride": args.hydride, "shifts": not args.no_shifts}
-            elif args.command == "ladder":
-                options = {"groups": [g.strip() for g in args.groups.split(",") if g.strip()] if args.groups else None}
-            elif args.command == "rate":
-                options = {"leaving_group": args.leaving_group}
-            if getattr(args, "medium", None):
-                options.update({"medium": args.medium, "rate_temperature_k": args.temperature})
-            if args.refine:
-                options["refine"] = args.refine
-                options["refine_log"] = lambda line: print(line, file=sys.stderr, flush=True)
-            records = run_task(args.command, items, settings, reference=getattr(args, "reference", "tert-butyl"),
-                               workers=workers, force=args.force, progress=progress, calibrated=args.calibrated,
-                               store=store, **options)
+    try:
+        with terminate_as_interrupt():
+            records = _run(args, items, settings, workers, progress, store)
     except BatchInterrupted as exc:
         records, interrupted = exc.records, True
-        print("\ncationcalc: interrupted; printing what finished", file=sys.stderr)
+        why = "stopped by SIGTERM" if stop_signal() == "SIGTERM" else "interrupted"
+        print(f"\ncationcalc: {why}; printing what finished" + (f" (kept in {args.store})" if store else ""),
+              file=sys.stderr)
+    except StoreError as exc:
+        return _usage_error(str(exc))
     if progress:
         print("\r" + " " * 70 + "\r", end="", file=sys.stderr)
+    if store is not None and store.write_error:
+        print(f"cationcalc: warning: the result store {args.store} could not be written ({store.write_error}); "
+              "the results below are complete but not stored: keep them with --json > FILE, or give a writable "
+              "--store and run again", file=sys.stderr)
     if not args.profile:
         for r in records:
             r.pop("profile", None)
     if args.json:
-        print(json.dumps(records, indent=2, ensure_ascii=False))
+        from .report import finite
+
+        print(json.dumps(finite(records), indent=2, ensure_ascii=False, allow_nan=False))
         print(SAFETY_NOTE, file=sys.stderr)
     elif args.csv:
         sys.stdout.write(_write_csv(records))
@@ -461,8 +492,38 @@ def main(argv: list[str] | None = None) -> int:
         print(f"profile: species wall {wall:.2f} s, engine {engine:.2f} s, ratio "
               f"{(engine / wall if wall else 0):.2f}", file=sys.stderr)
     if interrupted:
-        return 130
+        return 143 if stop_signal() == "SIGTERM" else 130
     return 1 if any(r.get("error") for r in records) else 0
+
+
+def _run(args, items, settings, workers, progress, store) -> list[dict]:
+    """Compute the records of one command (raises BatchInterrupted after Ctrl-C or SIGTERM)."""
+    from .tasks import run_task
+
+    if args.command == "shifts":
+        from .shifts import run_shifts
+
+        return run_shifts(items, settings, depth=args.depth, threshold_kcal_mol=args.threshold,
+                          ceiling_kcal_mol=args.ceiling, barriers=args.barriers, workers=workers,
+                          force=args.force, progress=progress, store=store)
+    options = {}
+    if args.command == "ionize":
+        options = {"leaving_group": args.leaving_group, "acid": args.acid,
+                   "reference_substrate": args.reference_substrate, "shifts": not args.no_shifts}
+    elif args.command == "sites":
+        options = {"acid": args.acid, "hydride": args.hydride, "shifts": not args.no_shifts}
+    elif args.command == "ladder":
+        options = {"groups": [g.strip() for g in args.groups.split(",") if g.strip()] if args.groups else None}
+    elif args.command == "rate":
+        options = {"leaving_group": args.leaving_group}
+    if getattr(args, "medium", None):
+        options.update({"medium": args.medium, "rate_temperature_k": args.temperature})
+    if getattr(args, "refine", None):
+        options["refine"] = args.refine
+        options["refine_log"] = lambda line: print(line, file=sys.stderr, flush=True)
+    return run_task(args.command, items, settings, reference=getattr(args, "reference", "tert-butyl"),
+                    workers=workers, force=args.force, progress=progress,
+                    calibrated=getattr(args, "calibrated", False), store=store, **options)
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -46,6 +46,8 @@ from . import __version__
 
 from .engines import get_engine
 from .engines.base import EngineError
+from pydantic import ValidationError
+
 from .models import Settings, SpeciesResult, species_key
 from .pipeline import ComputationError, compute_species
 from .species import InputError, Species
@@ -139,6 +141,12 @@ def _sigint_held():
         signal.pthread_sigmask(signal.SIG_SETMASK, previous)
 
 
+def _unexpected(sp: Species, exc: BaseException, where: str = "worker") -> SpeciesFailure:
+    """The one-line failure of a species whose computation raised something unforeseen (any executor)."""
+    text = str(exc).splitlines()[0] if str(exc) else ""
+    return SpeciesFailure(f"{sp.smiles}: {where} failed: {type(exc).__name__}: {text}")
+
+
 def compute_one(sp: Species, settings: Settings) -> SpeciesResult | SpeciesFailure:
     """One species, with every expected failure turned into a SpeciesFailure.
 
@@ -154,6 +162,10 @@ def compute_one(sp: Species, settings: Settings) -> SpeciesResult | SpeciesFailu
             with _sigint_held():
                 result = compute_species(sp, settings, engine)
             return result
+    except ValidationError as exc:  # a NaN or infinity in the result: never stored, never reported
+        fields = ", ".join(".".join(str(p) for p in e["loc"]) for e in exc.errors()[:3])
+        return SpeciesFailure(f"{sp.smiles}: the computation gave a non-finite or invalid value ({fields}); "
+                              "nothing stored")
     except (ComputationError, EngineError, InputError, ValueError) as exc:
         return SpeciesFailure(str(exc).splitlines()[0] if str(exc) else type(exc).__name__)
     except RuntimeError as exc:  # RDKit/ASE errors
@@ -187,8 +199,13 @@ def compute_many(species_list: Iterable[Species], settings: Settings, workers: i
     def finished(sp: Species, result: SpeciesResult | SpeciesFailure) -> None:
         if sigint_seen():
             raise KeyboardInterrupt
-        if store is not None and isinstance(result, SpeciesResult):
-            store.put(result, settings)
+        if store is not None and isinstance(result, SpeciesResult) and store.write_error is None:
+            from .store import StoreError
+
+            try:
+                store.put(result, settings)
+            except StoreError:
+                pass  # kept in memory; store.write_error tells the caller where nothing was written
         results[sp] = result
         if progress:
             progress(sp, result)
@@ -204,7 +221,11 @@ def compute_many(species_list: Iterable[Species], settings: Settings, workers: i
                 n = max(1, min(int(workers), len(todo)))
                 if n == 1:
                     for sp in todo:
-                        finished(sp, compute_one(sp, settings))
+                        try:
+                            result = compute_one(sp, settings)
+                        except Exception as exc:  # as a pool worker's exception: this species fails alone
+                            result = _unexpected(sp, exc)
+                        finished(sp, result)
                 else:
                     _compute_in_pool(todo, settings, n, finished)
     except KeyboardInterrupt:
@@ -216,7 +237,8 @@ def compute_many(species_list: Iterable[Species], settings: Settings, workers: i
 
 def _compute_in_pool(todo, settings, workers, finished) -> None:
     context = multiprocessing.get_context("spawn")
-    pool = ProcessPoolExecutor(max_workers=workers, mp_context=context)
+    pool = ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_die_with_parent,
+                               initargs=(os.getpid(),))
     futures = {pool.submit(compute_one, sp, settings): sp for sp in todo}
     try:
         for future in as_completed(futures):
@@ -224,7 +246,7 @@ def _compute_in_pool(todo, settings, workers, finished) -> None:
             try:
                 result = future.result()
             except Exception as exc:  # a crashed worker fails its species only
-                result = SpeciesFailure(f"{sp.smiles}: worker failed: {type(exc).__name__}: {exc}")
+                result = _unexpected(sp, exc)
             finished(sp, result)
     except KeyboardInterrupt:
         # stop now: the species in flight are lost, everything finished is already stored
@@ -234,6 +256,64 @@ def _compute_in_pool(todo, settings, workers, finished) -> None:
         raise
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _die_with_parent(parent_pid: int) -> None:
+    """Pool-worker start-up: exit when the parent process dies (SIGKILL, a batch scheduler's kill).
+
+    Linux: ``prctl(PR_SET_PDEATHSIG, SIGKILL)``; elsewhere a daemon thread polls the parent's pid.
+    Without this, workers of a killed run keep computing for nobody (and keep the resource
+    tracker alive).
+    """
+    try:
+        import ctypes
+
+        libc = ctypes.CDLL(None, use_errno=True)
+        if libc.prctl(1, int(signal.SIGKILL), 0, 0, 0) != 0:  # 1 = PR_SET_PDEATHSIG
+            raise OSError(ctypes.get_errno(), "prctl")
+    except (OSError, AttributeError):
+        def watch() -> None:
+            import time
+
+            while os.getppid() == parent_pid:
+                time.sleep(1.0)
+            os._exit(1)
+
+        threading.Thread(target=watch, daemon=True, name="cationcalc-parent-watch").start()
+    if os.getppid() != parent_pid:  # the parent died before prctl took effect
+        os._exit(1)
+
+
+_STOP_SIGNAL: dict = {"signal": None}
+
+
+def stop_signal() -> str | None:
+    """'SIGTERM' when a :func:`terminate_as_interrupt` block was asked to stop by SIGTERM, else None."""
+    return _STOP_SIGNAL["signal"]
+
+
+@contextlib.contextmanager
+def terminate_as_interrupt():
+    """Treat SIGTERM (how batch schedulers stop jobs) as Ctrl-C for the code inside.
+
+    The handler re-sends SIGINT to this process, so whatever handles Ctrl-C at that moment
+    (finish the species in flight, keep finished results, stop the pool) handles SIGTERM too;
+    :func:`stop_signal` then says it was SIGTERM.  Main thread only; a no-op elsewhere.
+    """
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    _STOP_SIGNAL["signal"] = None
+
+    def on_term(signum, frame):
+        _STOP_SIGNAL["signal"] = "SIGTERM"
+        os.kill(os.getpid(), signal.SIGINT)
+
+    previous = signal.signal(signal.SIGTERM, on_term)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, previous)
 
 
 # -- Dask ------------------------------------------------------------------------------------
@@ -265,15 +345,29 @@ def _dask_client(scheduler, workers: int = 1):
         raise ValueError(f"scheduler {scheduler!r}: use 'processes', 'dask-local' or a Dask address "
                          "such as tcp://host:8786")
     if scheduler == "dask-local":
-        cluster = distributed.LocalCluster(n_workers=max(1, int(workers)), threads_per_worker=1, processes=True,
-                                           dashboard_address=None, env=dict(_WORKER_ENV),
-                                           silence_logs=40)
-        client = distributed.Client(cluster)
+        import shutil
+        import tempfile
+
+        import dask
+
+        # the workers' scratch space in a folder of our own, removed afterwards (Dask would leave
+        # dask-scratch-space/ in the system temp folder)
+        scratch = tempfile.mkdtemp(prefix="cationcalc-dask-")
         try:
-            yield client
+            with dask.config.set({"temporary-directory": scratch}):  # scheduler and nannies too
+                cluster = distributed.LocalCluster(n_workers=max(1, int(workers)), threads_per_worker=1,
+                                                   processes=True, dashboard_address=None,
+                                                   env=dict(_WORKER_ENV), silence_logs=40, local_directory=scratch)
+            try:
+                client = distributed.Client(cluster)
+                try:
+                    yield client
+                finally:
+                    client.close()
+            finally:
+                cluster.close()
         finally:
-            client.close()
-            cluster.close()
+            shutil.rmtree(scratch, ignore_errors=True)
         return
     if "://" not in scheduler:
         raise ValueError(f"scheduler {scheduler!r}: use 'processes', 'dask-local' or a Dask address "

@@ -28,6 +28,43 @@ from pydantic import BaseModel, ConfigDict, Field, field_validator
 
 from . import __version__
 from .conformers import ConformerSettings
+
+#: temperatures (K) the thermochemistry accepts.  Below ~50 K the classical (high-temperature)
+#: rotational partition function used here fails for light species (rotational temperature of H2
+#: 88 K, of CH3+ about 10 K); above ~3000 K molecules fall apart on the time scale of a vibration and
+#: a harmonic oscillator over a 3 kcal/mol conformer window describes nothing.  The range covers
+#: superacid NMR work (-150 C, 123 K) up to flash pyrolysis (~1500 K).  Common practice, no source.
+TEMPERATURE_RANGE_K = (50.0, 3000.0)
+#: gas-phase standard pressures (Pa) the ideal-gas translational entropy is used for: 1 Pa to
+#: 10 MPa (100 bar); beyond that a real gas departs from the ideal-gas law the entropy assumes.
+#: Common practice, no source.
+PRESSURE_RANGE_PA = (1.0, 1.0e7)
+
+
+def check_temperature_k(value: float) -> float:
+    """``value`` as a float inside TEMPERATURE_RANGE_K; ValueError (one line, with the range) otherwise."""
+    low, high = TEMPERATURE_RANGE_K
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise ValueError(f"temperature {value!r} is not a number; give kelvin between {low:g} and {high:g}") from None
+    if not low <= number <= high:  # also refuses NaN
+        raise ValueError(f"temperature {value!r} K is outside {low:g}-{high:g} K, the range where the "
+                         "thermochemistry means something; give kelvin in that range")
+    return number
+
+
+def check_pressure_pa(value: float) -> float:
+    """``value`` as a float inside PRESSURE_RANGE_PA; ValueError (one line, with the range) otherwise."""
+    low, high = PRESSURE_RANGE_PA
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise ValueError(f"pressure {value!r} is not a number; give pascal between {low:g} and {high:g}") from None
+    if not low <= number <= high:
+        raise ValueError(f"pressure {value!r} Pa is outside {low:g}-{high:g} Pa, where the ideal-gas standard "
+                         "state holds; give pascal in that range (101325 = 1 atm)")
+    return number
 from .engines.solvents import normalise_solvent
 
 
@@ -39,8 +76,8 @@ class Settings(BaseModel):
     engine: Literal["tblite", "xtb"] = Field("tblite", description="GFN2-xTB implementation")
     method: Literal["GFN2-xTB"] = "GFN2-xTB"
     solvent: str | None = Field(None, description="implicit solvent name, None for the gas phase")
-    temperature_k: float = Field(298.15, gt=0)
-    pressure_pa: float = Field(101325.0, gt=0, description="gas-phase standard pressure (1 atm)")
+    temperature_k: float = Field(298.15, description="K, within TEMPERATURE_RANGE_K")
+    pressure_pa: float = Field(101325.0, description="gas-phase standard pressure (1 atm), within PRESSURE_RANGE_PA")
     fmax_ev_per_angstrom: float = Field(0.01, gt=0)
     max_steps: int = Field(500, ge=1)
     optimizer: Literal["LBFGS", "BFGS", "FIRE", "PreconLBFGS"] = "LBFGS"
@@ -60,6 +97,16 @@ class Settings(BaseModel):
     @classmethod
     def _solvent(cls, value):
         return normalise_solvent(value)
+
+    @field_validator("temperature_k")
+    @classmethod
+    def _temperature(cls, value):
+        return check_temperature_k(value)
+
+    @field_validator("pressure_pa")
+    @classmethod
+    def _pressure(cls, value):
+        return check_pressure_pa(value)
 
     @property
     def solvent_model(self) -> str | None:
@@ -87,6 +134,8 @@ def species_key(smiles: str, charge: int, multiplicity: int, settings: Settings)
 class ConformerRecord(BaseModel):
     """One optimised conformer of a species."""
 
+    model_config = ConfigDict(allow_inf_nan=False)
+
     energy_hartree: float
     relative_energy_kcal_mol: float
     gibbs_kcal_mol: float | None = None
@@ -107,7 +156,9 @@ class Profile(BaseModel):
 
 
 class SpeciesResult(BaseModel):
-    """Everything computed for one species at one level of theory."""
+    """Everything computed for one species at one level of theory (NaN and infinity are refused)."""
+
+    model_config = ConfigDict(allow_inf_nan=False)
 
     smiles: str
     charge: int

@@ -41,6 +41,7 @@ import base64
 import html
 import io
 import json
+import math
 import os
 import platform
 import re
@@ -158,9 +159,50 @@ def _jsonable(value):
     raise TypeError(f"cannot write {type(value).__name__} to JSON")
 
 
+def finite(value):
+    """``value`` with every NaN or infinite float replaced by None (JSON has no NaN; a reader would choke)."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {k: finite(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [finite(v) for v in value]
+    if hasattr(value, "item") and not isinstance(value, (str, bytes)):  # numpy scalars
+        return finite(value.item())
+    if hasattr(value, "tolist"):
+        return finite(value.tolist())
+    return value
+
+
 def records_json(records: list[dict], prov: dict) -> bytes:
-    return (json.dumps({"provenance": prov, "records": records}, indent=2, ensure_ascii=False,
-                       default=_jsonable) + "\n").encode()
+    return (json.dumps(finite({"provenance": prov, "records": records}), indent=2, ensure_ascii=False,
+                       default=_jsonable, allow_nan=False) + "\n").encode()
+
+
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def spreadsheet_safe(value):
+    """A text cell a spreadsheet would run as a formula (=, +, -, @ first) gets a leading single quote.
+
+    Numbers, and text that reads as a plain number (-1.5), are left alone.  Common practice, no source.
+    """
+    if not isinstance(value, str) or not value.startswith(_FORMULA_START):
+        return value
+    try:
+        float(value)
+        return value
+    except ValueError:
+        return "'" + value
+
+
+def one_line(text: str, limit: int | None = None) -> str:
+    """``text`` without line breaks or control characters (an SDF title or XYZ comment is one line)."""
+    flat = re.sub(r"[\x00-\x1f\x7f\x85\u2028\u2029]+", " ", str(text)).strip()
+    flat = flat.replace("$$$$", "$ $ $ $")  # the SDF record separator
+    if limit is not None and len(flat) > limit:
+        flat = flat[: limit - 1] + "…"
+    return flat
 
 
 def csv_text(records: list[dict], comment: str | None = None) -> str:
@@ -178,7 +220,8 @@ def csv_text(records: list[dict], comment: str | None = None) -> str:
     writer = csv.DictWriter(buffer, fieldnames=keys, extrasaction="ignore", lineterminator="\n")
     writer.writeheader()
     for r in records:
-        writer.writerow({k: json.dumps(v, ensure_ascii=False, default=_jsonable) if isinstance(v, (list, dict)) else v
+        writer.writerow({k: spreadsheet_safe(json.dumps(finite(v), ensure_ascii=False, default=_jsonable)
+                                             if isinstance(v, (list, dict)) else v)
                          for k, v in r.items()})
     return buffer.getvalue()
 
@@ -257,7 +300,7 @@ def structures_sdf(results: list[SpeciesResult], names: dict[str, list[str]], pr
         mol = _molecule(r)
         if mol is None:
             continue
-        title = "; ".join(names.get(r.smiles, [])) or r.smiles
+        title = one_line("; ".join(names.get(r.smiles, [])) or r.smiles, limit=60)
         mol.SetProp("_Name", f"{title} [{r.level}]")
         for key, value in _species_tags(r).items():
             mol.SetProp(key, value)
@@ -282,12 +325,12 @@ def xyz_files(results: list[SpeciesResult], names: dict[str, list[str]], prov: d
         sign = f"q{r.charge:+d}" if r.charge else "q0"
         fname = f"{_safe(r.formula)}_{sign}_{_safe(r.solvent or 'gas')}_{r.key[:8]}.xyz"
         fields = {
-            "name": "; ".join(names.get(r.smiles, [])) or r.smiles, "smiles": r.smiles, "charge": r.charge,
+            "name": one_line("; ".join(names.get(r.smiles, [])) or r.smiles), "smiles": r.smiles, "charge": r.charge,
             "multiplicity": r.multiplicity, "level": r.level, "E_hartree": f"{r.E_hartree:.8f}",
             "G_hartree": f"{r.G_hartree:.8f}", "study": prov["study"], "workflow_sha256": prov["workflow_sha256"],
             **{k: v for k, v in prov["versions"].items()},
         }
-        comment = " ".join(f'{k}="{str(v).replace(chr(34), chr(39))}"' for k, v in fields.items())
+        comment = " ".join(f'{k}="{one_line(v).replace(chr(34), chr(39))}"' for k, v in fields.items())
         lines = [str(len(r.numbers)), comment]
         for z, (x, y, zz) in zip(r.numbers, r.positions_angstrom):
             lines.append(f"{chemical_symbols[z]:<2} {x:14.8f} {y:14.8f} {zz:14.8f}")

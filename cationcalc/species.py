@@ -49,6 +49,20 @@ class InputError(ValueError):
     """A user input that cationcalc refuses, with a one-line reason and fix."""
 
 
+def clipped(text: str, limit: int = 60) -> str:
+    """``text`` cut to about ``limit`` characters with its length said (a 100 kB SMILES is not echoed)."""
+    text = str(text)
+    return text if len(text) <= limit else text[: limit - 20] + f"… ({len(text)} characters)"
+
+
+def shown(text: str, limit: int = 60) -> str:
+    """``text`` quoted for a message, cut to ``limit`` characters (a 100 kB SMILES is not echoed)."""
+    text = str(text)
+    if len(text) <= limit:
+        return repr(text)
+    return repr(text[: limit - 20] + "…") + f" ({len(text)} characters)"
+
+
 @dataclass(frozen=True)
 class Species:
     """A validated molecule: canonical SMILES, net charge and spin multiplicity."""
@@ -82,26 +96,30 @@ def parse(smiles: str, *, force: bool = False, allow_radicals: bool = False) -> 
         raise InputError("empty input: give a SMILES string, e.g. C[C+](C)C")
     mol = Chem.MolFromSmiles(text)
     if mol is None:
-        raise InputError(f"{text!r} is not a valid SMILES: check brackets, ring closures and valences")
+        raise InputError(f"{shown(text)} is not a valid SMILES: check brackets, ring closures and valences")
     if mol.GetNumAtoms() == 0:
-        raise InputError(f"{text!r} contains no atoms")
+        raise InputError(f"{shown(text)} contains no atoms")
+    labelled = sorted({f"[{a.GetIsotope()}{a.GetSymbol()}]" for a in mol.GetAtoms() if a.GetIsotope()})
+    if labelled:
+        raise InputError(f"{shown(text)} carries isotope labels ({', '.join(labelled)}); cationcalc computes "
+                         "with the masses of the common isotopes only: remove the labels")
     if len(Chem.GetMolFrags(mol)) > 1:
-        raise InputError(f"{text!r} has several disconnected fragments: give one species per input")
+        raise InputError(f"{shown(text)} has several disconnected fragments: give one species per input")
     for atom in mol.GetAtoms():
         if atom.GetSymbol() not in SUPPORTED_ELEMENTS:
             raise InputError(
-                f"{text!r} contains {atom.GetSymbol()}, which cationcalc does not handle; "
+                f"{shown(text)} contains {atom.GetSymbol()}, which cationcalc does not handle; "
                 f"supported elements: {' '.join(sorted(SUPPORTED_ELEMENTS))}"
             )
         if atom.GetNumRadicalElectrons() and not allow_radicals:
             raise InputError(
-                f"{text!r} has an unpaired electron on {atom.GetSymbol()}{atom.GetIdx()} (a radical): "
+                f"{shown(text)} has an unpaired electron on {atom.GetSymbol()}{atom.GetIdx()} (a radical): "
                 "write every hydrogen of a cation explicitly, e.g. C[CH+]C, not C[C+]C"
             )
     heavy = mol.GetNumHeavyAtoms()
     if heavy > MAX_HEAVY_ATOMS and not force:
         raise InputError(
-            f"{text!r} has {heavy} heavy atoms, above the limit of {MAX_HEAVY_ATOMS}; pass --force to compute it anyway"
+            f"{shown(text)} has {heavy} heavy atoms, above the limit of {MAX_HEAVY_ATOMS}; pass --force to compute it anyway"
         )
     return mol
 
@@ -115,7 +133,7 @@ def species(smiles: str, *, multiplicity: int | None = None, force: bool = False
         multiplicity = sum(a.GetNumRadicalElectrons() for a in mol.GetAtoms()) + 1
     if (n_electrons + multiplicity - 1) % 2:
         raise InputError(
-            f"{smiles!r}: {n_electrons} electrons cannot have spin multiplicity {multiplicity}; "
+            f"{shown(smiles)}: {n_electrons} electrons cannot have spin multiplicity {multiplicity}; "
             "check the charge and the hydrogens"
         )
     return Species(Chem.MolToSmiles(mol), charge, int(multiplicity))
@@ -139,14 +157,14 @@ def _carbenium_form(mol: Chem.Mol, text: str) -> tuple[Chem.Mol, int]:
     negative = [a for a in mol.GetAtoms() if a.GetFormalCharge() < 0 and not zwitterionic(a)]
     if len(positive) != 1 or Chem.GetFormalCharge(mol) != 1 or negative or positive[0].GetFormalCharge() != 1:
         raise InputError(
-            f"{text!r} is not a monocation with one charged atom (net charge {Chem.GetFormalCharge(mol):+d}); "
+            f"{shown(text)} is not a monocation with one charged atom (net charge {Chem.GetFormalCharge(mol):+d}); "
             "give a carbocation such as C[C+](C)C"
         )
     atom = positive[0]
     if atom.GetSymbol() == "C":
         return mol, atom.GetIdx()
     if atom.GetSymbol() not in ("O", "N", "S"):
-        raise InputError(f"{text!r} has its positive charge on {atom.GetSymbol()}: no cationic carbon to study")
+        raise InputError(f"{shown(text)} has its positive charge on {atom.GetSymbol()}: no cationic carbon to study")
     # onium ion: move one pi pair of the O=C / N=C (or O#C) bond onto the heteroatom
     for bond in atom.GetBonds():
         other = bond.GetOtherAtom(atom)
@@ -164,7 +182,7 @@ def _carbenium_form(mol: Chem.Mol, text: str) -> tuple[Chem.Mol, int]:
         Chem.SanitizeMol(form)
         return form, other.GetIdx()
     raise InputError(
-        f"{text!r}: the charge on {atom.GetSymbol()} has no carbenium resonance form "
+        f"{shown(text)}: the charge on {atom.GetSymbol()} has no carbenium resonance form "
         "(it needs a double or triple bond from the charged atom to carbon)"
     )
 
@@ -196,7 +214,7 @@ def hydride_adduct(cation: Carbocation) -> Species:
     try:
         Chem.SanitizeMol(mol)
     except Exception as exc:  # pragma: no cover - valence problems are caught earlier
-        raise InputError(f"{cation.smiles!r}: cannot add hydride to the cationic carbon ({exc})") from exc
+        raise InputError(f"{shown(cation.smiles)}: cannot add hydride to the cationic carbon ({exc})") from exc
     return Species(Chem.MolToSmiles(mol), 0, 1)
 
 
@@ -259,16 +277,16 @@ def heterolysis_fragments(smiles: str, *, force: bool = False) -> Heterolysis:
     text = (smiles or "").strip()
     mol = parse(text, force=force)
     if Chem.GetFormalCharge(mol) != 0:
-        raise InputError(f"{text!r} is charged; heterolysis of halides starts from a neutral R–X")
+        raise InputError(f"{shown(text)} is charged; heterolysis of halides starts from a neutral R–X")
     sites = halide_sites(mol)
     if not sites:
-        raise InputError(f"{text!r} has no carbon–halogen bond: give a substrate R–X with X = F, Cl, Br or I")
+        raise InputError(f"{shown(text)} has no carbon–halogen bond: give a substrate R–X with X = F, Cl, Br or I")
     mapped = [s for s in sites if mol.GetAtomWithIdx(s[1]).GetAtomMapNum()]
     if len(sites) > 1:
         if len(mapped) != 1:
             listing = ", ".join(f"{mol.GetAtomWithIdx(x).GetSymbol()} (atom {x})" for _, x in sites)
             raise InputError(
-                f"{text!r} has {len(sites)} leaving groups: {listing}; mark the one to break with an atom map, "
+                f"{shown(text)} has {len(sites)} leaving groups: {listing}; mark the one to break with an atom map, "
                 "e.g. ClCC[Br:1]"
             )
         sites = mapped

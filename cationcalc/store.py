@@ -39,8 +39,11 @@ import datetime as _dt
 import json
 import os
 import sqlite3
+import stat
 import time
 from typing import Iterable, Iterator
+
+from pydantic import ValidationError
 
 from . import __version__
 from .models import Settings, SpeciesResult, species_key
@@ -75,6 +78,34 @@ class StoreError(RuntimeError):
     """The store file cannot be used (one line, with the fix)."""
 
 
+def _check_writable_file(path: str, folder: str) -> None:
+    """Refuse, before anything is computed, a store path that is not a writable regular file.
+
+    ``/dev/null`` or a folder would make SQLite create ``<path>-journal`` beside it; a read-only
+    file would only fail at the first write, after the work.  The folder must take the WAL files.
+    """
+    if os.path.exists(path):
+        mode = os.stat(path).st_mode
+        if not stat.S_ISREG(mode):
+            raise StoreError(f"result store {path!r} is not a regular file; give the path of a new or "
+                             "existing .sqlite file")
+        if not os.access(path, os.R_OK | os.W_OK):
+            raise StoreError(f"result store {path!r} is not writable; fix its permissions or give another "
+                             "store path")
+    probe = folder
+    while not os.path.exists(probe):
+        parent = os.path.dirname(probe)
+        if parent == probe:
+            break
+        probe = parent
+    if not os.path.isdir(probe):
+        raise StoreError(f"cannot create result store {path!r}: {probe!r} is not a folder; give another "
+                         "store path")
+    if not os.access(probe, os.W_OK | os.X_OK):
+        raise StoreError(f"cannot create result store {path!r}: folder {probe!r} is not writable; give "
+                         "another store path")
+
+
 def _now() -> str:
     return _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat()
 
@@ -94,7 +125,12 @@ class ResultStore:
         self.writes = 0
         self.touched: dict[str, None] = {}
         self.hit_keys: set[str] = set()
+        #: the first write that failed (the run goes on; its results stay in memory), or None
+        self.write_error: str | None = None
+        #: keys whose stored row failed validation and was set aside to be recomputed
+        self.invalid_keys: list[str] = []
         folder = os.path.dirname(os.path.abspath(self.path))
+        _check_writable_file(self.path, folder)
         try:
             os.makedirs(folder, exist_ok=True)
             # autocommit mode: every write below opens its own explicit transaction
@@ -106,6 +142,13 @@ class ResultStore:
         try:
             self._db.execute(f"PRAGMA busy_timeout = {int(timeout_s * 1000)}")
             self._retry(self._initialise)
+            # a garbage page in the middle of the file only shows when it is read: look at every page now
+            verdict = str(self._retry(lambda: self._db.execute("PRAGMA quick_check").fetchone()[0]))
+            if verdict != "ok":
+                raise sqlite3.DatabaseError(f"damaged: {verdict.splitlines()[0]}")
+        except StoreError:
+            self._db.close()
+            raise
         except sqlite3.DatabaseError as exc:
             self._db.close()
             raise StoreError(f"{self.path!r} is not a cationcalc result store ({exc}); move it away or "
@@ -147,24 +190,46 @@ class ResultStore:
             raise
 
     # -- reading ----------------------------------------------------------------------------
+    def _read(self, key: str) -> SpeciesResult | None:
+        """The validated row of ``key``; a row that fails validation is removed (recomputed) and gives None."""
+        try:
+            row = self._db.execute("SELECT result FROM species WHERE key = ?", (key,)).fetchone()
+        except sqlite3.OperationalError:
+            raise
+        except sqlite3.DatabaseError as exc:
+            raise StoreError(f"result store {self.path!r} is damaged ({exc}); move it away or choose another "
+                             "store path") from None
+        if row is None:
+            return None
+        try:
+            return SpeciesResult.model_validate_json(row[0])
+        except (ValidationError, ValueError):
+            # e.g. a NaN written as null by an older version: recompute instead of failing every run
+            self.invalid_keys.append(key)
+            try:
+                self._retry(lambda: self._db.execute("DELETE FROM species WHERE key = ? AND result = ?",
+                                                     (key, row[0])))
+            except sqlite3.Error:
+                pass  # a read-only store: the species is recomputed and not stored
+            return None
+
     def get(self, key: str) -> SpeciesResult | None:
         """The stored result for ``key`` (counts a hit) or None (counts a miss)."""
-        row = self._db.execute("SELECT result FROM species WHERE key = ?", (key,)).fetchone()
+        result = self._read(key)
         self.touched.setdefault(key, None)
-        if row is None:
+        if result is None:
             self.misses += 1
             return None
         self.hits += 1
         self.hit_keys.add(key)
-        return SpeciesResult.model_validate_json(row[0])
+        return result
 
     def get_species(self, smiles: str, charge: int, multiplicity: int, settings: Settings) -> SpeciesResult | None:
         return self.get(species_key(smiles, charge, multiplicity, settings))
 
     def peek(self, key: str) -> SpeciesResult | None:
         """Like :meth:`get` without counting or marking the key as used (for reports)."""
-        row = self._db.execute("SELECT result FROM species WHERE key = ?", (key,)).fetchone()
-        return None if row is None else SpeciesResult.model_validate_json(row[0])
+        return self._read(key)
 
     def __contains__(self, key: str) -> bool:
         return self._db.execute("SELECT 1 FROM species WHERE key = ?", (key,)).fetchone() is not None
@@ -218,7 +283,11 @@ class ResultStore:
                 raise
             return cursor.rowcount
 
-        inserted = self._retry(write) == 1
+        try:
+            inserted = self._retry(write) == 1
+        except sqlite3.Error as exc:  # disk full, file made read-only, removed ...
+            self.write_error = f"{exc}"
+            raise StoreError(f"cannot write to result store {self.path!r} ({exc})") from None
         self.writes += int(inserted)
         return inserted
 

@@ -33,6 +33,11 @@ Schema (every key optional except ``study``, ``species`` and ``tasks``)::
 ``scheduler`` is ``processes`` (local pool), ``dask-local`` (a local Dask
 cluster) or the address of a Dask scheduler (``tcp://host:8786``).  Paths are
 relative to the workflow file; ``store`` is relative to the output folder.
+Species files, the output folder and the store must lie inside the workflow
+file's folder (``cationcalc run --allow-outside-paths`` lifts this; /proc,
+/sys and /dev are never read); species files are regular ``.smi``/``.txt``,
+``.csv`` or ``.sdf`` files.  YAML aliases (``*name``) are refused.
+``temperature_k`` is 50-3000 K and ``pressure_pa`` 1-1e7 Pa.
 A species entry's ``tasks`` restricts which tasks run on it.  Mistakes are
 reported as ``FILE:LINE: ...`` naming the key, with the closest valid key.
 
@@ -73,7 +78,7 @@ from . import SAFETY_NOTE, __version__
 from . import species as _species  # noqa: F401  (imported for its side effect: RDKit's parser stays quiet)
 from .conformers import ConformerSettings
 from .engines.solvents import normalise_solvent
-from .models import Settings, species_key
+from .models import Settings, check_pressure_pa, check_temperature_k, species_key
 from .store import StoreError
 
 #: every task a workflow may name; which of them this installation can run is checked at plan time
@@ -98,8 +103,8 @@ class MethodSpec(_Strict):
     method: Literal["GFN2-xTB"] = Field("GFN2-xTB", description="GFN level")
     solvent: list[str | None] = Field(default_factory=lambda: [None],
                                       description="one implicit solvent or a list; none = gas phase")
-    temperature_k: float = Field(298.15, gt=0)
-    pressure_pa: float = Field(101325.0, gt=0)
+    temperature_k: float = Field(298.15, description="K, 50-3000 (models.TEMPERATURE_RANGE_K)")
+    pressure_pa: float = Field(101325.0, description="Pa, 1-1e7 (models.PRESSURE_RANGE_PA)")
     qrrho: bool = True
     enantiomer_mixing: bool = False
     scf_max_iterations: int = Field(250, ge=1)
@@ -110,6 +115,16 @@ class MethodSpec(_Strict):
         if value is None or isinstance(value, str):
             return [value]
         return value
+
+    @field_validator("temperature_k")
+    @classmethod
+    def _temperature(cls, value):
+        return check_temperature_k(value)
+
+    @field_validator("pressure_pa")
+    @classmethod
+    def _pressure(cls, value):
+        return check_pressure_pa(value)
 
     @field_validator("solvent")
     @classmethod
@@ -495,6 +510,20 @@ def _duplicate_key(node) -> tuple[str, int] | None:
     return None
 
 
+def _refuse_aliases(path: Path, text: str) -> None:
+    """Refuse YAML aliases (``*name``) before anything builds a tree from them.
+
+    An alias repeats a whole subtree: nested ones expand exponentially ("billion laughs") and an
+    alias inside its own anchor is an endless structure.  A study file never needs them; the
+    event stream shows them without expanding anything.
+    """
+    for event in yaml.parse(text, Loader=yaml.SafeLoader):
+        if isinstance(event, yaml.AliasEvent):
+            line = event.start_mark.line + 1 if event.start_mark is not None else 1
+            raise WorkflowError(f"{path}:{line}: YAML alias *{event.anchor} is not accepted in a study file; "
+                                "write the value out where it is needed")
+
+
 def load_workflow(path: str | os.PathLike) -> LoadedWorkflow:
     """Read and validate a workflow file; raises WorkflowError (FILE:LINE: ...)."""
     path = Path(path)
@@ -508,6 +537,7 @@ def load_workflow(path: str | os.PathLike) -> LoadedWorkflow:
     except UnicodeDecodeError as exc:
         raise WorkflowError(f"{path}: not UTF-8 text (byte {exc.start}); save it as UTF-8") from None
     try:
+        _refuse_aliases(path, text)
         node = yaml.compose(text)
         data = yaml.safe_load(text)
     except yaml.YAMLError as exc:
@@ -569,11 +599,14 @@ def read_species_file(path: Path, fmt: str, where: str) -> list[tuple[str, str]]
     else:
         from rdkit import Chem
 
+        if not _read_text(path, where).strip():
+            raise WorkflowError(f"{where}: SDF file {str(path)!r} is empty (no record 1); add at least one "
+                                "molecule record ending in $$$$")
         supplier = Chem.SDMolSupplier(str(path), removeHs=False, sanitize=True)
         for index, mol in enumerate(supplier):
             if mol is None:
-                raise WorkflowError(f"{where}: record {index + 1} of SDF file {str(path)!r} cannot be read; "
-                                    "fix or remove it")
+                raise WorkflowError(f"{where}: record {index + 1} of SDF file {str(path)!r} cannot be read "
+                                    "(empty or not a molecule block); fix or remove it")
             name = mol.GetProp("_Name").strip() if mol.HasProp("_Name") else ""
             items.append((Chem.MolToSmiles(Chem.RemoveHs(mol)), name))
     if not items:
@@ -607,6 +640,7 @@ class Plan:
     scheduler: str
     force: bool
     formats: list[str]
+    sources: dict = dataclasses.field(default_factory=dict)  # "inline" or a file → number of species
 
     @property
     def workflow(self) -> Workflow:
@@ -614,8 +648,10 @@ class Plan:
 
     @property
     def row_count(self) -> int:
-        """Rows before tasks that give several records per input (species × tasks × solvents)."""
-        return sum(len(t.items) for t in self.tasks) * len(self.solvents)
+        """Rows before tasks that give several records per input (species × tasks × solvents; the rate task:
+        species × media, once whatever the solvents)."""
+        return sum(len(t.items) * (len(t.options["medium"]) if t.name == "rate" else len(self.solvents))
+                   for t in self.tasks)
 
 
 def _runner_for(name: str):
@@ -651,9 +687,46 @@ def _accepts(runner, option: str) -> bool:
     return option in params or any(p.kind is p.VAR_KEYWORD for p in params.values())
 
 
+#: file name endings read as species files (format: auto)
+SPECIES_SUFFIXES = {".smi": "smi", ".txt": "smi", ".csv": "csv", ".sdf": "sdf", ".sd": "sdf", ".mol": "sdf"}
+#: never read from or written to, whatever a workflow says (kernel and device files)
+_SYSTEM_FOLDERS = (Path("/proc"), Path("/sys"), Path("/dev"))
+ALLOW_OUTSIDE = "--allow-outside-paths"
+
+
+def _inside(path: Path, folder: Path) -> bool:
+    try:
+        path.relative_to(folder)
+        return True
+    except ValueError:
+        return False
+
+
+def confined_path(given: str, folder: Path, where: str, what: str, *, allow_outside: bool = False,
+                  also: Path | None = None) -> Path:
+    """``given`` resolved against ``folder`` (symlinks followed); WorkflowError when it leaves ``folder``
+    (or ``also``) without ``allow_outside``, and always for /proc, /sys and /dev."""
+    resolved = (folder / given).resolve()
+    if any(_inside(resolved, system) for system in _SYSTEM_FOLDERS):
+        raise WorkflowError(f"{where}: {what} {given!r} resolves to {resolved}, a system file; give a file of "
+                            "your own")
+    if not allow_outside and not _inside(resolved, folder) and not (also is not None and _inside(resolved, also)):
+        raise WorkflowError(f"{where}: {what} {given!r} resolves to {resolved}, outside the workflow's folder "
+                            f"{folder}; move it into that folder, or pass {ALLOW_OUTSIDE} to cationcalc run")
+    return resolved
+
+
 def build_plan(loaded: LoadedWorkflow, *, output: str | None = None, workers: int | None = None,
-               scheduler: str | None = None) -> Plan:
-    """Resolve files, tasks and settings; raises WorkflowError (FILE:LINE: ...)."""
+               scheduler: str | None = None, allow_outside: bool = False) -> Plan:
+    """Resolve files, tasks and settings; raises WorkflowError (FILE:LINE: ...).
+
+    Species files, the output folder and the store must resolve inside the workflow file's
+    folder (the store may also sit in the output folder; ``output`` given here, and the store
+    relative to it, are the user's own choice and are not confined) unless ``allow_outside``;
+    species files must be regular files.  /proc, /sys and /dev are always refused.
+    """
+    import stat
+
     from .executors import default_workers
 
     wf, path = loaded.workflow, loaded.path
@@ -661,18 +734,29 @@ def build_plan(loaded: LoadedWorkflow, *, output: str | None = None, workers: in
     items: list[tuple[str, str]] = []
     restrictions: list[list[str] | None] = []
     input_files: dict[str, str] = {}
+    sources: dict[str, int] = {}
     for index, entry in enumerate(wf.species):
         if entry.file is None:
             items.append((entry.smiles, entry.name))
             restrictions.append(entry.tasks)
+            sources["inline"] = sources.get("inline", 0) + 1
             continue
         where = f"{path}:{loaded.line_of(('species', index, 'file'))}"
-        file_path = (base / entry.file)
-        if not file_path.is_file():
+        file_path = confined_path(entry.file, base, where, f"species file (key species[{index}].file)",
+                                  allow_outside=allow_outside)
+        if not file_path.exists():
             raise WorkflowError(f"{where}: species file {entry.file!r} (key species[{index}].file) not found at "
                                 f"{file_path}; give a path relative to the workflow file")
+        if not stat.S_ISREG(file_path.stat().st_mode):
+            raise WorkflowError(f"{where}: species file {entry.file!r} (key species[{index}].file) is not a "
+                                "regular file; give a .smi, .csv or .sdf file")
+        if entry.format == "auto" and file_path.suffix.lower() not in SPECIES_SUFFIXES:
+            raise WorkflowError(f"{where}: species file {entry.file!r} (key species[{index}].file) does not end in "
+                                f"{', '.join(SPECIES_SUFFIXES)}; rename it or set format: smi, csv or sdf")
         input_files[entry.file] = hashlib.sha256(file_path.read_bytes()).hexdigest()
-        for item in read_species_file(file_path, entry.format, where):
+        found = read_species_file(file_path, entry.format, where)
+        sources[entry.file] = sources.get(entry.file, 0) + len(found)
+        for item in found:
             items.append(item)
             restrictions.append(entry.tasks)
 
@@ -716,14 +800,19 @@ def build_plan(loaded: LoadedWorkflow, *, output: str | None = None, workers: in
                                 "\"cationcalc[dask]\" (or use scheduler: processes)") from None
     if output is not None:
         output_dir = Path(output).resolve()
+        if any(_inside(output_dir, system) for system in _SYSTEM_FOLDERS):
+            raise WorkflowError(f"--output {output!r} is a system folder; give a folder of your own")
     elif wf.output.folder is not None:
-        output_dir = (base / wf.output.folder).resolve()
+        output_dir = confined_path(wf.output.folder, base, f"{path}:{loaded.line_of(('output', 'folder'))}",
+                                   "output folder (key output.folder)", allow_outside=allow_outside)
     else:
         output_dir = (base / "cationcalc-output" / wf.study).resolve()
-    store_path = (output_dir / wf.output.store).resolve()
+    store_path = confined_path(str(output_dir / wf.output.store), base,
+                               f"{path}:{loaded.line_of(('output', 'store'))}", "store (key output.store)",
+                               allow_outside=allow_outside or output is not None, also=output_dir)
     return Plan(loaded=loaded, items=items, solvents=list(wf.method.solvent), tasks=planned,
                 settings={s: wf.settings_for(s) for s in wf.method.solvent}, output_dir=output_dir,
-                store_path=store_path, input_files=input_files,
+                store_path=store_path, input_files=input_files, sources=sources,
                 workers=workers or wf.execution.workers or default_workers(), scheduler=scheduler,
                 force=wf.execution.force, formats=list(dict.fromkeys(wf.output.formats)))
 
@@ -771,13 +860,17 @@ def describe_plan(plan: Plan) -> str:
     m = wf.method
     lines.append(f"  method     {m.method} with {m.engine}, {m.temperature_k} K; solvents: "
                  + ", ".join(_label(s) for s in plan.solvents))
-    sources = ", ".join(plan.input_files) or "inline"
+    sources = ", ".join(f"{n} inline" if source == "inline" else f"{n} from {source}"
+                        for source, n in plan.sources.items()) or "inline"
     lines.append(f"  species    {len(plan.items)} ({sources})")
     lines.append("  tasks      " + ", ".join(
         t.name + (f" ({', '.join(f'{k}={v}' for k, v in t.options.items())})" if t.options else "")
         for t in plan.tasks))
-    lines.append(f"  rows       {sum(len(t.items) for t in plan.tasks)} species×task × {len(plan.solvents)} "
-                 f"solvent{'s' if len(plan.solvents) > 1 else ''} = {plan.row_count}")
+    rated = [t for t in plan.tasks if t.name == "rate"]
+    lines.append(f"  rows       {sum(len(t.items) for t in plan.tasks if t.name != 'rate')} species×task × "
+                 f"{len(plan.solvents)} solvent{'s' if len(plan.solvents) > 1 else ''}"
+                 + "".join(f" + {len(t.items)} rate × {len(t.options['medium'])} media" for t in rated)
+                 + f" = {plan.row_count}")
     lines.append("")
     lines.append(f"  {'solvent':<16}{'task':<13}{'inputs':>7}{'rejected':>10}{'species':>9}{'stored':>8}")
     total_needed: set = set()
@@ -842,6 +935,8 @@ class Outcome:
     reused: int
     elapsed_s: float
     interrupted: bool = False
+    #: why the result store or the output files could not be written (the run's results were kept), or ""
+    write_problem: str = ""
 
 
 class _Progress:
@@ -885,6 +980,40 @@ class _Progress:
             self._bar.stop()
 
 
+def check_writable(plan: Plan) -> None:
+    """Refuse, before anything is computed, an output folder that cannot be made or written."""
+    out = plan.output_dir
+    if out.exists() and not out.is_dir():
+        raise WorkflowError(f"output folder {str(out)!r} is an existing file, not a folder; give another "
+                            "output: folder (or --output)")
+    probe = out
+    while not probe.exists() and probe.parent != probe:
+        probe = probe.parent
+    if not probe.is_dir():
+        raise WorkflowError(f"output folder {str(out)!r} cannot be made: {str(probe)!r} is a file; give another "
+                            "output: folder (or --output)")
+    if not os.access(probe, os.W_OK | os.X_OK):
+        raise WorkflowError(f"output folder {str(out)!r} is not writable ({str(probe)!r}); give another "
+                            "output: folder (or --output)")
+
+
+def _rescue_records(plan: Plan, records: list[dict]) -> Path | None:
+    """results.json of a run whose output folder failed, written to the system temp folder (or None)."""
+    import tempfile
+
+    from .report import finite
+
+    try:
+        handle, name = tempfile.mkstemp(prefix=f"cationcalc-{plan.workflow.study}-", suffix=".json")
+        with os.fdopen(handle, "w", encoding="utf-8") as out:
+            import json
+
+            json.dump(finite(records), out, indent=1, ensure_ascii=False, allow_nan=False, default=str)
+        return Path(name)
+    except OSError:
+        return None
+
+
 def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> Outcome:
     """Compute and write a study; returns an :class:`Outcome` (``interrupted`` after Ctrl-C, nothing written)."""
     from .executors import Interrupted, scheduler_context, sigint_guard, sigint_seen
@@ -892,6 +1021,8 @@ def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> 
     from .tasks import BatchInterrupted
 
     start = time.perf_counter()
+    if write:
+        check_writable(plan)
     store = ResultStore(plan.store_path)
     try:
         # 1. every species whose need is known, all solvents, through one pool per solvent
@@ -946,21 +1077,34 @@ def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> 
                            interrupted=True)
         bar.stop()
         files: list[Path] = []
+        problem = ""
+        if store.write_error:
+            problem = (f"the result store {plan.store_path} could not be written ({store.write_error}); species "
+                       "computed after that are in the outputs only")
         if write:
             from .report import write_outputs
 
-            files = write_outputs(plan, records, store)
+            try:
+                files = write_outputs(plan, records, store)
+            except OSError as exc:  # disk full, folder removed or made read-only during the run
+                kept = _rescue_records(plan, records)
+                problem = "; ".join(filter(None, [problem, (
+                    f"cannot write the outputs to {plan.output_dir} ({exc.strerror or exc}); "
+                    + (f"the records are saved in {kept}; " if kept else "")
+                    + f"the species are in {plan.store_path}: free or fix the folder and run the same command "
+                    "again (nothing is recomputed), or give --output FOLDER")]))
         return Outcome(records=records, files=files, computed=bar.done, failed=bar.failed,
-                       reused=len(store.hit_keys - bar.keys), elapsed_s=time.perf_counter() - start)
+                       reused=len(store.hit_keys - bar.keys), elapsed_s=time.perf_counter() - start,
+                       write_problem=problem)
     finally:
         store.close()
 
 
 def run_study(path: str | os.PathLike, *, output: str | None = None, workers: int | None = None,
-              scheduler: str | None = None, show_progress: bool = False) -> Outcome:
+              scheduler: str | None = None, show_progress: bool = False, allow_outside: bool = False) -> Outcome:
     """Load, plan, run and write a study (library entry point)."""
-    return run_plan(build_plan(load_workflow(path), output=output, workers=workers, scheduler=scheduler),
-                    show_progress=show_progress)
+    return run_plan(build_plan(load_workflow(path), output=output, workers=workers, scheduler=scheduler,
+                               allow_outside=allow_outside), show_progress=show_progress)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -968,7 +1112,9 @@ def run_study(path: str | os.PathLike, *, output: str | None = None, workers: in
 # ---------------------------------------------------------------------------------------------
 
 def _parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
+    from .arguments import Parser, positive_int_arg
+
+    parser = Parser(
         prog="cationcalc run",
         description="Run a study: a YAML workflow file (method, species, tasks, outputs). Species already in the "
                     "result store are read, not recomputed; a killed run resumes where it stopped.",
@@ -976,12 +1122,15 @@ def _parser() -> argparse.ArgumentParser:
                "2 bad workflow or usage, 130 interrupted (finished species stay in the store).")
     parser.add_argument("workflow", metavar="STUDY.yaml", help="the workflow file")
     parser.add_argument("--dry-run", action="store_true", help="print the expanded plan and stop")
-    parser.add_argument("--workers", type=int, default=None,
-                        help="worker processes (default: execution.workers, else one per core)")
+    parser.add_argument("--workers", type=positive_int_arg, default=None,
+                        help="worker processes, 1 or more (default: execution.workers, else one per core)")
     parser.add_argument("--scheduler", default=None,
                         help="processes, dask-local or a Dask address tcp://host:8786 (overrides execution.scheduler)")
     parser.add_argument("--output", default=None, help="output folder (overrides output.folder)")
     parser.add_argument("--quiet", action="store_true", help="no plan, progress bar or table; only the summary")
+    parser.add_argument(ALLOW_OUTSIDE, action="store_true",
+                        help="let species files, output.folder and output.store lie outside the workflow file's "
+                             "folder (system folders /proc, /sys, /dev stay refused)")
     return parser
 
 
@@ -1028,18 +1177,20 @@ def main(argv: list[str] | None = None) -> int:
         args = parser.parse_args(argv)
     except SystemExit as exc:
         return int(exc.code or 0)
-    if args.workers is not None and args.workers < 1:
-        return _error(f"--workers {args.workers}: give 1 or more")
+    from .executors import stop_signal, terminate_as_interrupt
+
     try:
         plan = build_plan(load_workflow(args.workflow), output=args.output, workers=args.workers,
-                          scheduler=args.scheduler)
+                          scheduler=args.scheduler, allow_outside=args.allow_outside_paths)
         if args.dry_run:
             print(describe_plan(plan))
             print(SAFETY_NOTE)
             return 0
+        check_writable(plan)
         if not args.quiet:
             print(describe_plan(plan), flush=True)
-        outcome = run_plan(plan, show_progress=sys.stderr.isatty() and not args.quiet)
+        with terminate_as_interrupt():
+            outcome = run_plan(plan, show_progress=sys.stderr.isatty() and not args.quiet)
     except WorkflowError as exc:
         return _error(str(exc))
     except StoreError as exc:
@@ -1047,15 +1198,16 @@ def main(argv: list[str] | None = None) -> int:
     except ValueError as exc:  # e.g. an unreachable Dask scheduler
         return _error(str(exc).splitlines()[0])
     except KeyboardInterrupt:
-        print("\ncationcalc run: interrupted; finished species stay in the result store; run the same "
-              "command again to resume", file=sys.stderr)
-        return 130
+        print(f"\ncationcalc run: {'stopped by SIGTERM' if stop_signal() == 'SIGTERM' else 'interrupted'}; "
+              "finished species stay in the result store; run the same command again to resume", file=sys.stderr)
+        return 143 if stop_signal() == "SIGTERM" else 130
     species_line = (f"species: {outcome.computed} computed, {outcome.failed} failed, {outcome.reused} read from "
                     f"the store; {outcome.elapsed_s:.1f} s")
     if outcome.interrupted:
-        print(f"\ncationcalc run: interrupted ({species_line}); finished species are in {plan.store_path}; run "
+        why = "stopped by SIGTERM" if stop_signal() == "SIGTERM" else "interrupted"
+        print(f"\ncationcalc run: {why} ({species_line}); finished species are in {plan.store_path}; run "
               "the same command again to resume", file=sys.stderr)
-        return 130
+        return 143 if stop_signal() == "SIGTERM" else 130
     if not args.quiet:
         _print_summary(outcome.records)
     errors = sum(1 for r in outcome.records if r.get("error"))
@@ -1063,6 +1215,9 @@ def main(argv: list[str] | None = None) -> int:
     report = plan.output_dir / "report.html"
     print(f"outputs in {plan.output_dir}" + (f" (open {report})" if report in outcome.files else ""))
     print(SAFETY_NOTE)
+    if outcome.write_problem:
+        print(f"cationcalc run: error: {outcome.write_problem}", file=sys.stderr)
+        return 1
     return 1 if errors else 0
 
 
