@@ -68,8 +68,10 @@ def half_life_figure(records: list[dict]):
     ax.set_ylim(len(labels) - 0.5, -0.9)
     ax.set_xlabel("half-life of R–X, s (log scale; bars: ± the lg k uncertainty)")
     ax.grid(axis="x", alpha=0.2, which="major")
-    ax.legend(title="medium", fontsize="small", loc="lower right")
-    fig.tight_layout()
+    handles, names = ax.get_legend_handles_labels()
+    fig.legend(handles, [f"medium {n}" for n in names], loc="lower center", ncol=min(4, len(media)),
+               fontsize="small", frameon=False)
+    fig.tight_layout(rect=(0.0, min(0.4, 0.35 / fig.get_figheight()), 1.0, 1.0))
     return fig
 
 

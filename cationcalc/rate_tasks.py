@@ -59,6 +59,9 @@ from .species import InputError, Species, carbocation, hydride_adduct
 UNCALIBRATED_CLASS_LG = 2.0
 #: largest |predicted − published| lg k for the tert-butyl check to pass (stated in the kinetics requirements)
 TERT_BUTYL_CHECK_LG = 2.0
+#: a lifetime shorter than a bond vibration (about 0.1 ps) is not a lifetime of an intermediate at all
+#: (common practice, no source)
+VIBRATION_S = 1e-13
 RATE_NOTE = ("lg k₁ = s_f(N_f + E_f) at 25 °C (electrofuge–nucleofuge equation; Denegri, B. et al. Chem. Eur. J. "
              "2006, 12, 1648), carried to the stated temperature with the Eyring equation; cation lifetime "
              "1/k from the Mayr–Patz equation lg k = s_N(N₁ + E) with the solvent as nucleophile (20 °C)")
@@ -183,8 +186,10 @@ def lifetime_fields(est: ElectrofugeEstimate, m: Medium) -> dict:
                 "nucleophilicity_source": f"no published solvent nucleophilicity for {m.code}", "free_cation": None}
     lg = lg_k_capture(est.E, float(row["N1"]), float(row["s_N"]))
     k = 10.0 ** lg
-    return {"lg_k_capture": round(lg, 2), "k_capture_per_s": float(f"{k:.3g}"), "lifetime_s": float(f"{1 / k:.3g}"),
-            "lifetime_text": human_time(1 / k), "N1": float(row["N1"]), "s_N": float(row["s_N"]),
+    lifetime = 1.0 / k
+    text = human_time(lifetime) if lifetime >= VIBRATION_S else "< 0.1 ps (no intermediate)"
+    return {"lg_k_capture": round(lg, 2), "k_capture_per_s": float(f"{k:.3g}"), "lifetime_s": float(f"{lifetime:.3g}"),
+            "lifetime_text": text, "N1": float(row["N1"]), "s_N": float(row["s_N"]),
             "nucleophilicity_source": f"{row['source']} [{row['status']}]", "E": round(est.E, 2),
             "E_computed": round(est.E_computed, 2), "E_source": est.E_source,
             "free_cation": k < FREE_CATION_CAPTURE_LIMIT_PER_S}

@@ -201,9 +201,10 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
 
         if isinstance(options.get("medium"), (list, tuple)) and len(options["medium"]) > 1:
             # several media: one pass each, species shared through the store
+            rest = {k: v for k, v in options.items() if k not in ("reference", "medium")}
             return [r for m in options["medium"] for r in run_task(
                 task, items, settings, reference=reference, workers=workers, force=force, progress=progress,
-                store=store, **{**options, "medium": m})]
+                store=store, medium=m, **rest)]
         options = rate_options(options)
         settings = descriptor_settings(settings)
     groups = [prepare(task, text, name, settings, options, force) for text, name in items]

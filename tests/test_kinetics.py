@@ -311,3 +311,13 @@ def test_docstring_examples_of_the_kinetics_modules_run():
 
     for module in (kinetics, media_module, nucleofuges, electrofuges, rate_tasks, rate_figures, rate_checks):
         assert doctest.testmod(module).failed == 0, module.__name__
+
+
+def test_rate_task_over_several_media_shares_species(gas):
+    from cationcalc.tasks import run_task
+
+    records = run_task("rate", [("ClC(c1ccccc1)c1ccccc1", "benzhydryl chloride")], gas, medium=["80E20W", "EtOH"],
+                       temperature_k=298.15)
+    assert [r["medium"] for r in records] == ["80E20W", "E"]
+    # solvolysis is faster in 80 % ethanol than in ethanol (published k 1.72e-3 vs 5.75e-5 s⁻¹, Streidl 2010)
+    assert records[0]["k_ion_per_s"] > records[1]["k_ion_per_s"]
