@@ -338,8 +338,8 @@ def add_rates(task: str, records: list[dict], settings: Settings, m: Medium | st
               workers: int = 1, store=None, progress=None, force: bool = False) -> list[dict]:
     """Kinetic keys on ``ionize`` and ``ladder`` records (a second pass at the descriptor's level).
 
-    ``ionize``: the verdict then speaks in time (the equilibrium verdict is kept as
-    ``equilibrium_verdict``).  ``ladder``: every leaving group with an N_f in the
+    Where a rate exists the verdict speaks in time (the equilibrium verdict is kept
+    as ``equilibrium_verdict``).  ``ladder``: every leaving group with an N_f in the
     medium gets its half-life and a ``half_life_rank``; the others say why not.
     """
     from .executors import SpeciesFailure, compute_many
@@ -378,7 +378,7 @@ def add_rates(task: str, records: list[dict], settings: Settings, m: Medium | st
             continue
         fields = kinetic_fields(est, nf, m, r["substrate_smiles"], r["cation_class"], temperature_k)
         r.update(fields)
-        if task == "ionize" and fields.get("rate_verdict"):
+        if fields.get("rate_verdict"):  # words and numbers agree: with a rate, the verdict is about time
             r["equilibrium_verdict"], r["equilibrium_verdict_reason"] = r.get("verdict"), r.get("verdict_reason")
             r["verdict"], r["verdict_reason"] = fields["rate_verdict"], fields["rate_verdict_reason"]
     if task == "ladder":
