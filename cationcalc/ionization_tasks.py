@@ -90,7 +90,7 @@ def _heterolysis_prepared(site: IonizationSite, base: dict, settings: Settings,
         ddg = energy.dG_kcal_mol - ref_energy.dG_kcal_mol
         ddg_tbu = energy.dG_kcal_mol - tbu_energy.dG_kcal_mol
         judged = verdict(site.cation_class, ddG_ion_kcal_mol=ddg_tbu, dG_ion_kcal_mol=energy.dG_kcal_mol,
-                         solution=settings.solvent is not None)
+                         solution=settings.solvent is not None, temperature_k=settings.temperature_k)
         record = dict(base)
         record.update({
             "dE_ion_kcal_mol": round(energy.dE_kcal_mol, 2),
@@ -127,7 +127,7 @@ def _hydride_prepared(site: IonizationSite, base: dict, settings: Settings) -> P
         hia = hydride_ion_affinity(res["cation"], res["adduct"], res["reference_cation"], res["reference_adduct"],
                                    anchor)
         d_hia = hia.hia_kcal_mol - anchor.hia_kcal_mol
-        judged = verdict(site.cation_class, dHIA_kcal_mol=d_hia)
+        judged = verdict(site.cation_class, dHIA_kcal_mol=d_hia, temperature_k=settings.temperature_k)
         record = dict(base)
         record.update({
             "hia_kcal_mol": round(hia.hia_kcal_mol, 2),
