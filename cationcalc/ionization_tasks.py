@@ -307,11 +307,42 @@ def attach_shifts(records: list[dict], known: dict, settings: Settings, *, worke
             continue
         r["shifts"] = [s for s in screen["shifts"] if s["flagged"]]
         r["sink_smiles"] = screen.get("sink_smiles")
+        r["degenerate_shifts"] = screen.get("degenerate_shifts", [])
         r["shift_summary"] = "; ".join(
             f"{s['kind']} → {s['product_smiles']}"
-            + (f" (relaxes to {s['relaxed_to']})" if s.get("relaxed_to") else "") + f" {s['dG_kcal_mol']:+.1f}"
+            + (f" (not a minimum: relaxes to {s['relaxed_to']})" if s.get("relaxed_to") else "")
+            + f" ΔG {s['dG_kcal_mol']:+.1f}; {s.get('barrier_status', 'barrier not computed')}"
             for s in r["shifts"])
+        r["rearrangement"] = rearrangement_text(r)
     return records
+
+
+def rearrangement_text(record: dict) -> str:
+    """Does the cation rearrange: the downhill shift (sink, ΔG, what is known of the barrier) and degenerate shifts.
+
+    >>> rearrangement_text({"shifts": [{"kind": "alkyl", "product_smiles": "[CH2+]C(C)C", "relaxed_to": "C[C+](C)C",
+    ...     "dG_kcal_mol": -16.0, "barrier_kcal_mol": None, "product_is_minimum": False}],
+    ...     "degenerate_shifts": ["hydride (H) C2→C1"]})
+    '→ C[C+](C)C via [CH2+]C(C)C, ΔG −16.0 kcal/mol, barrier unknown (intermediate not a minimum); degenerate: hydride (H) C2→C1'
+    """
+    from .shifts import barrier_status
+
+    parts = []
+    shifts = record.get("shifts") or []
+    if shifts:
+        best = min(shifts, key=lambda s: s["dG_kcal_mol"])
+        end = best.get("relaxed_to") if best.get("relaxed_to") not in (None, "bridged") else best["product_smiles"]
+        via = f" via {best['product_smiles']}" if end != best["product_smiles"] else ""
+        status = best.get("barrier_status") or barrier_status(best)
+        if best.get("product_is_minimum") is False and best.get("barrier_kcal_mol") is None:
+            status = "barrier unknown (intermediate not a minimum)"
+        parts.append(f"→ {end}{via}, ΔG {best['dG_kcal_mol']:+.1f} kcal/mol, {status}".replace("ΔG +", "ΔG +")
+                     .replace("ΔG -", "ΔG −"))
+    elif record.get("shifts") is not None:
+        parts.append("no downhill 1,2-shift")
+    if record.get("degenerate_shifts"):
+        parts.append("degenerate: " + ", ".join(record["degenerate_shifts"]))
+    return "; ".join(parts)
 
 
 def _rank_key(key: str):
@@ -325,5 +356,5 @@ def _merge_errors(failed: list[dict]) -> dict:
     return first
 
 
-__all__ = ["prepare_ionize", "prepare_sites", "prepare_ladder", "collate", "attach_shifts", "solvolysis_rates", "spearman_rho",
+__all__ = ["prepare_ionize", "prepare_sites", "prepare_ladder", "collate", "attach_shifts", "rearrangement_text", "solvolysis_rates", "spearman_rho",
            "SOLVATION_NOTE", "EQUILIBRIUM_NOTE", "LADDER_NOTE"]
