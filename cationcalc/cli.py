@@ -19,6 +19,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+import textwrap
 
 from . import SAFETY_NOTE, __version__
 
@@ -143,6 +144,54 @@ def _ionization_footer(task: str, records: list[dict]) -> list[str]:
     return lines
 
 
+def _print_view(task: str, records: list[dict]) -> None:
+    """The default table: the task's reading view (cationcalc/columns.py), one short note per row."""
+    from rich.console import Console
+    from rich.markup import escape
+    from rich.table import Table
+
+    from .columns import cell, note, view
+
+    console = Console(width=max(120, Console().width))
+    first = records[0] if records else {}
+    table = Table(title=f"{TITLES[task]} — {first.get('level', '')}, {first.get('temperature_k', 298.15)} K",
+                  title_justify="left")
+    columns = view(task, records)
+    for column in columns:
+        # SMILES and numbers are never wrapped inside a token: they keep their full width, and too long a
+        # SMILES ends in "…" (the full one is in --json); text wraps between words only
+        texts = [cell(column, r) for r in records]
+        wrap = column.kind == "text"
+        widest = max([len(t) for t in texts] + [1])
+        longest_word = max([len(w) for t in texts for w in t.split()] + [1])
+        width = min(longest_word, 40) if wrap else widest
+        header = "\n".join(textwrap.wrap(column.header, max(width, 10), break_long_words=False,
+                                                 break_on_hyphens=False))
+        table.add_column(header, no_wrap=not wrap, overflow="ellipsis", min_width=width,
+                         justify="right" if column.kind in ("value", "int", "factor") else "left")
+    notes = [note(r) for r in records]
+    table.add_column("note", no_wrap=True, min_width=max([len(n) for n in notes] + [4]))
+    # never crop: when the narrowest layout is wider than the terminal, the table is printed at its own width
+    from rich.measure import Measurement
+
+    needed = Measurement.get(console, console.options.update(width=10_000), table).minimum
+    console = Console(width=max(console.width, needed))
+    errors: list[str] = []
+    for r in records:
+        flag = note(r)
+        if r.get("error"):
+            errors.append(f"{r.get('name') or r.get('input', '')}: {r['error']}")
+            flag = flag.replace("error", f"[red]error {len(errors)}[/red]", 1)
+        table.add_row(*[escape(cell(c, r)) for c in columns], flag)
+    console.print(table)
+    for i, message in enumerate(errors, 1):
+        console.print(f"[red]error {i}[/red]: {escape(message)}", highlight=False)
+    if any(r.get("warnings") for r in records):
+        console.print("Notes: the diagnostics behind each count are in --json (warnings); --wide prints every "
+                      "column and note.", highlight=False)
+    _print_footer(console, task, records, first)
+
+
 def _print_table(task: str, records: list[dict]) -> None:
     from rich.console import Console
     from rich.markup import escape
@@ -185,6 +234,12 @@ def _print_table(task: str, records: list[dict]) -> None:
     console.print(table)
     for i, message in enumerate(errors, 1):
         console.print(f"[red]error {i}[/red]: {escape(message)}", highlight=False)
+    _print_footer(console, task, records, first)
+
+
+def _print_footer(console, task: str, records: list[dict], first: dict) -> None:
+    from rich.markup import escape
+
     if task in ("ionize", "sites", "ladder"):
         for line in _ionization_footer(task, records):
             console.print(escape(line), highlight=False)
@@ -231,6 +286,8 @@ def build_parser() -> argparse.ArgumentParser:
         out = p.add_mutually_exclusive_group()
         out.add_argument("--json", action="store_true", help="print a JSON list of records")
         out.add_argument("--csv", action="store_true", help="print CSV records")
+        p.add_argument("--wide", action="store_true",
+                       help="terminal table with every column and every note (default: the short reading view)")
         p.add_argument("--profile", action="store_true", help="print where the time went (stderr)")
         p.add_argument("--store", default=None, metavar="FILE",
                        help="SQLite result store: species already in it are read, new ones added")
@@ -403,8 +460,10 @@ def main(argv: list[str] | None = None) -> int:
     elif args.csv:
         sys.stdout.write(_write_csv(records))
         print(SAFETY_NOTE, file=sys.stderr)
-    else:
+    elif args.wide:
         _print_table(args.command, records)
+    else:
+        _print_view(args.command, records)
     if args.profile:
         wall = sum(r.get("profile", {}).get("wall_s", 0) for r in records)
         engine = sum(r.get("profile", {}).get("engine_s", 0) for r in records)

@@ -1,0 +1,65 @@
+"""What a chemist reads: the short terminal view, the report's answer per substrate (issue 17, points 1, 2, 5, 9, 10).
+
+Records here are built by hand in the shape the tasks produce (invented values, for layout only);
+the chemistry behind the values is tested in test_ionization.py and test_shifts.py.
+"""
+
+import re
+
+from cationcalc.cli import _print_view, build_parser
+from cationcalc.columns import VIEWS, Column, cell, note, view
+
+LONG_CATION = "[CH2+]c1ccc([N+](=O)[O-])cc1C(=O)OC(C)(C)Cc1ccc(OC)cc1"  # invented, longer than a cell
+
+
+def _ionize_records():
+    return [
+        {"task": "ionize", "name": "4-nitrobenzyl chloride", "input": "ClCc1ccc([N+](=O)[O-])cc1",
+         "cation_smiles": "[CH2+]c1ccc([N+](=O)[O-])cc1", "site_atom": 1, "equivalent_atoms": [1],
+         "leaving_group": "chloride", "dG_ion_kcal_mol": 25.31, "dG_ion_uncertainty_kcal_mol": 17.6,
+         "ddG_ion_vs_tert_butyl_kcal_mol": 7.3, "ddG_ion_vs_tert_butyl_uncertainty_kcal_mol": 5.1,
+         "verdict": "SN1/E1 plausible", "verdict_reason": "r",
+         "warnings": ["broke C1-H6; formed C0-H6", "27i cm-1 remain after 3 displacements", "third"],
+         "rearrangement": "no downhill 1,2-shift", "level": "GFN2-xTB/ALPB(water)", "temperature_k": 298.15,
+         "standard_state": "1 mol/L (solution)", "equilibrium_note": "equilibrium", "solvation_note": "",
+         "reference_substrate": "CC(C)(C)Cl"},
+        {"task": "ionize", "name": "", "input": "long", "cation_smiles": LONG_CATION, "site_atom": 2,
+         "leaving_group": "tosylate", "dG_ion_kcal_mol": 12.0, "ddG_ion_vs_tert_butyl_kcal_mol": -1.0,
+         "verdict": "SN1/E1 plausible", "verdict_reason": "r", "warnings": [], "rearrangement": "",
+         "level": "GFN2-xTB/ALPB(water)", "standard_state": "1 mol/L (solution)", "equilibrium_note": "e",
+         "solvation_note": "", "reference_substrate": "CC(C)(C)Cl"},
+    ]
+
+
+def test_default_ionize_view_is_short_and_never_splits_a_smiles(capsys):
+    records = _ionize_records()
+    _print_view("ionize", records)
+    out = capsys.readouterr().out
+    lines = out.splitlines()
+    header_block = "\n".join(lines[:8])
+    for word in ("substrate", "cation", "ΔG_ion", "kcal/mol", "verdict", "note"):
+        assert word in header_block
+    assert "dG_ion_kcal_mol" not in out  # headers in words, not raw keys
+    # the whole SMILES on one line, or a prefix ending in … on one line: never a fragment such as ")cc1"
+    assert any("[CH2+]c1ccc([N+](=O)[O-])cc1" in line for line in lines)
+    assert any(re.search(re.escape(LONG_CATION[:20]) + r"[^ │]*…", line) for line in lines)
+    assert not any(line.strip("│ ").startswith((")", "cc1")) for line in lines)
+    # diagnostics are counted, their text stays in JSON
+    assert "3 notes" in out and "27i cm-1" not in out and "broke C1-H6" not in out
+    body = [line for line in lines if line.startswith("│")]
+    assert body and max(line.count("│") for line in body) - 1 <= 9  # at most nine columns
+
+
+def test_wide_option_and_views_per_task():
+    args = build_parser().parse_args(["ionize", "CC(C)(C)Cl", "--wide"])
+    assert args.wide
+    for task in ("hia", "ionize", "sites", "ladder"):
+        headers = [c.header for c in VIEWS[task]]
+        assert all(not re.fullmatch(r"[a-z_]+_(kcal_mol|kJ_mol)", h) for h in headers)
+        assert len(headers) <= 10
+    # a new task is one more entry (the kinetics task adds its own in the same way)
+    extended = {**VIEWS, "demo": (Column("k_demo_per_s", "k (s⁻¹)", "factor"),)}
+    assert cell(extended["demo"][0], {"k_demo_per_s": 1234.5}) == "1.2e+03"
+    assert note({"warnings": ["a"], "rearranged": True, "relaxed_cation_smiles": "C[C+](C)C"}) == \
+        "relaxed to C[C+](C)C; 1 note"
+    assert [c.key for c in view("ionize", [{"dG_ion_kcal_mol": 1.0}])] == ["substrate", "dG_ion_kcal_mol"]
