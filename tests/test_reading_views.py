@@ -63,3 +63,34 @@ def test_wide_option_and_views_per_task():
     assert note({"warnings": ["a"], "rearranged": True, "relaxed_cation_smiles": "C[C+](C)C"}) == \
         "relaxed to C[C+](C)C; 1 note"
     assert [c.key for c in view("ionize", [{"dG_ion_kcal_mol": 1.0}])] == ["substrate", "dG_ion_kcal_mol"]
+
+
+def test_charge_cards_draw_the_relaxed_structure_and_the_centres_own_charge(gas):
+    # 1-propyl cation relaxes to 2-propyl at GFN2-xTB (a 1,2-H shift; DEVELOPERS.md, measured); a
+    # carbenium centre carries the largest positive charge of the carbons (common practice, no source)
+    from rdkit import Chem
+
+    from cationcalc.pipeline import compute_species
+    from cationcalc.report import _centre_text, depiction_png, drawn_structure
+    from cationcalc.species import species
+
+    propyl = compute_species(species("CC[CH2+]"), gas)
+    assert propyl.rearranged
+    mol, relaxed = drawn_structure(propyl)
+    assert relaxed and Chem.MolToSmiles(mol) == "C[CH+]C"  # drawn as it relaxed, + on the middle carbon
+    own = propyl.partial_charges
+    assert own[1] == max(own[:3])  # the relaxed centre's own charge is the largest: the centre reads as centre
+    tert_butyl = compute_species(species("C[C+](C)C"), gas)
+    q = tert_butyl.partial_charges
+    assert q[1] > max(q[0], q[2], q[3])
+    assert "own charge" in _centre_text(tert_butyl) and "group charge" in _centre_text(tert_butyl)
+    assert depiction_png(propyl)[:4] == b"\x89PNG"
+
+
+def test_charge_palette_is_the_projects_own():
+    from cationcalc.report import CHARGE_COLOURS, CHARGE_SCALE, _charge_colour
+
+    assert CHARGE_COLOURS == ("#13706b", "#ffffff", "#d97a00")
+    r, g, b = _charge_colour(CHARGE_SCALE)
+    assert (round(r * 255), round(g * 255), round(b * 255)) == (0xd9, 0x7a, 0x00)  # amber: positive
+    assert _charge_colour(0.0) == (1.0, 1.0, 1.0)
