@@ -93,4 +93,6 @@ def test_charge_palette_is_the_projects_own():
     assert CHARGE_COLOURS == ("#13706b", "#ffffff", "#d97a00")
     r, g, b = _charge_colour(CHARGE_SCALE)
     assert (round(r * 255), round(g * 255), round(b * 255)) == (0xd9, 0x7a, 0x00)  # amber: positive
-    assert _charge_colour(0.0) == (1.0, 1.0, 1.0)
+    assert min(_charge_colour(0.0)) > 0.99  # white at zero (colormap sampling: within one 8-bit step)
+    r, g, b = _charge_colour(-CHARGE_SCALE)
+    assert (round(r * 255), round(g * 255), round(b * 255)) == (0x13, 0x70, 0x6b)  # teal: negative
