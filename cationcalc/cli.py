@@ -124,12 +124,14 @@ def _ionization_footer(task: str, records: list[dict]) -> list[str]:
             lines.append(first["solvation_note"][0].upper() + first["solvation_note"][1:] + ".")
     if "hia_kcal_mol" in first:
         lines.append(f"HIA by isodesmic hydride exchange with the {first['reference']} cation "
-                     f"(HIA {first['reference_hia_kcal_mol']} kcal/mol, {first['reference_source']}).")
+                     f"(HIA {first['reference_hia_kcal_mol']} kcal/mol, {first['reference_source']}; "
+                     f"status {first.get('reference_status') or 'read'}).")
     if task == "ladder":
         lines.append(first["ladder_note"] + ".")
         if first.get("spearman_rho_vs_solvolysis") is not None:
             lines.append(f"Spearman ρ(−ΔG_ion, lg k_rel) = {first['spearman_rho_vs_solvolysis']:+.2f} over "
-                         f"{first['solvolysis_n']} groups; k_rel: {first['solvolysis_source']}.")
+                         f"{first['solvolysis_n']} groups; k_rel: {first['solvolysis_source']}; "
+                         f"status {first.get('solvolysis_status') or 'read'}.")
     rules = verdict_rules()
     quantity, label = ("ddG_ion", "ΔΔG_ion vs tert-butyl") if "dG_ion_kcal_mol" in first else ("dHIA", "ΔHIA vs tert-butyl")
     thresholds = "; ".join(f"{label} ≤ {r['limit_kcal_mol']} → {r['verdict']}" for r in rules
@@ -245,7 +247,7 @@ def _print_footer(console, task: str, records: list[dict], first: dict) -> None:
             console.print(escape(line), highlight=False)
     if task == "hia" and first.get("reference"):
         console.print(f"Anchor: {first['reference']} cation, HIA {first['reference_hia_kcal_mol']} kcal/mol "
-                      f"({first['reference_source']}). HIA = ΔH298 of R⁺ + H⁻ → R–H by isodesmic hydride exchange.")
+                      f"({first['reference_source']}; status {first.get('reference_status') or 'read'}). HIA = ΔH298 of R⁺ + H⁻ → R–H by isodesmic hydride exchange.")
     if task == "heterolysis":
         console.print("Standard state: 1 atm in the gas phase, 1 mol/L in solution (1 atm → 1 M applied once per species).")
     if task == "shifts":

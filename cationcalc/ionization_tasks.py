@@ -118,7 +118,7 @@ def _hydride_prepared(site: IonizationSite, base: dict, settings: Settings) -> P
     """HIA of the cation formed by hydride abstraction at one site (anchor: tert-butyl)."""
     anchor = hia_reference("tert-butyl")
     base = {**base, **_site_fields(site), "reference": anchor.name, "reference_hia_kcal_mol": anchor.hia_kcal_mol,
-            "reference_source": anchor.source}
+            "reference_source": anchor.source, "reference_status": anchor.status}
     ref_cation = Species(anchor.cation_smiles, 1, 1)
     needs = {"cation": Species(site.cation.smiles, 1, 1), "adduct": hydride_adduct(site.cation),
              "reference_cation": ref_cation, "reference_adduct": Species(anchor.adduct_smiles, 0, 1)}
@@ -266,6 +266,7 @@ def collate(task: str, records: list[dict], settings: Settings) -> list[dict]:
             r["spearman_rho_vs_solvolysis"] = round(rho, 3) if rho is not None else None
             r["solvolysis_n"] = len(common)
             r["solvolysis_source"] = source
+            r["solvolysis_status"] = first_row["status"] if first_row else None
             r["ladder_note"] = LADDER_NOTE
     return ok + failed
 

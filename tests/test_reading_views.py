@@ -96,3 +96,36 @@ def test_charge_palette_is_the_projects_own():
     assert min(_charge_colour(0.0)) > 0.99  # white at zero (colormap sampling: within one 8-bit step)
     r, g, b = _charge_colour(-CHARGE_SCALE)
     assert (round(r * 255), round(g * 255), round(b * 255)) == (0x13, 0x70, 0x6b)  # teal: negative
+
+
+def test_citations_are_citations_and_status_is_a_separate_field():
+    # a printed citation names authors, journal, year, volume and page; how it was checked lives in
+    # `status` (read / derived / recalled) and `verification`, never in the citation text
+    import csv
+    from importlib import resources
+
+    from cationcalc.checks import _trend
+    from cationcalc.reference import hia_reference, load_table
+
+    banned = ("from memory", "recalled", "not verified", "this session", "copied from", "shared/", "abstract")
+    folder = resources.files("cationcalc") / "data"
+    checked = 0
+    for path in folder.iterdir():
+        if not path.name.endswith(".csv"):
+            continue
+        rows = list(csv.DictReader(path.open(encoding="utf-8")))
+        if not rows or "status" not in rows[0] or "source" not in rows[0]:
+            continue
+        for row in rows:
+            assert not any(b in row["source"].lower() for b in banned), (path.name, row["source"])
+            assert row["status"] in ("read", "derived", "recalled"), (path.name, row["status"])
+            assert "verification" in row
+            checked += 1
+    assert checked > 50
+    anchor = hia_reference("tert-butyl")
+    assert anchor.source.startswith("Keister, J. W.; Riley, J. S.; Baer, T.") and "1993" in anchor.source
+    assert anchor.status == "derived"
+    noyce = load_table("solvolysis_leaving_groups")[0]
+    assert noyce["source"] == "Noyce, D. S.; Virgilio, J. A. J. Org. Chem. 1972, 37, 2643"
+    assert noyce["status"] == "recalled"
+    assert "status" in _trend("x", "y", "z", "w", "source", True)
