@@ -129,3 +129,33 @@ def test_citations_are_citations_and_status_is_a_separate_field():
     assert noyce["source"] == "Noyce, D. S.; Virgilio, J. A. J. Org. Chem. 1972, 37, 2643"
     assert noyce["status"] == "recalled"
     assert "status" in _trend("x", "y", "z", "w", "source", True)
+
+
+def test_rank_gaps_carry_the_error_of_a_same_class_difference():
+    # the error of a difference between two alkyl cations comes from pairs of alkyl reference cations
+    # (bundled gas-phase HIA residuals, each row with its published source); the shared bias cancels
+    import csv
+    import itertools
+    import math
+    from importlib import resources
+
+    from cationcalc.models import Settings
+    from cationcalc.uncertainty import annotate
+
+    path = resources.files("cationcalc") / "data" / "calibration_residuals.csv"
+    rows = [r for r in csv.DictReader(path.open(encoding="utf-8")) if r["calibration_id"].startswith("GFN2-xTB (gas)")]
+    alkyl = [float(r["raw_residual_kcal_mol"]) for r in rows if r["class_group"] == "alkyl"]
+    assert len(alkyl) >= 3
+    pairs = [a - b for a, b in itertools.product(alkyl, repeat=2)]  # every ordered pair, as documented
+    expected = math.sqrt(sum(d * d for d in pairs) / len(pairs))
+    records = [
+        {"task": "sites", "input": "CCC(C)C(C)C", "rank": 1, "cation_smiles": "CC[C+](C)C(C)C", "cation_class": "tertiary",
+         "hia_kcal_mol": 240.0, "hia_vs_best_kcal_mol": 0.0, "warnings": []},
+        {"task": "sites", "input": "CCC(C)C(C)C", "rank": 2, "cation_smiles": "C[CH+]C(C)C(C)C",
+         "cation_class": "secondary", "hia_kcal_mol": 250.0, "hia_vs_best_kcal_mol": 10.0, "warnings": []},
+    ]
+    out = annotate("sites", records, Settings())
+    gap = out[1]
+    assert gap["hia_vs_best_uncertainty_kcal_mol"] == round(expected, 1)
+    assert gap["hia_vs_best_uncertainty_kcal_mol"] < gap["hia_uncertainty_kcal_mol"]
+    assert "alkyl pairs" in gap["hia_vs_best_uncertainty_basis"] and "bias" in gap["hia_vs_best_uncertainty_basis"]
