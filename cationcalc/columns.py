@@ -75,6 +75,30 @@ def _relaxed(record: dict) -> str:
     return record.get("relaxed_cation_smiles") or record.get("relaxed_smiles") or ""
 
 
+#: site tiers of a ``sites`` scan (this project's labels and limits): a site whose gap to the best is
+#: within the error of that gap, or within a factor 10 in the equilibrium constant (1.4 kcal/mol at
+#: 298 K), is "leading"; within a factor 1000 (4.1 kcal/mol) "competing"; further away "minor"
+SITE_TIERS = (("leading", 1.4), ("competing", 4.1), ("minor", float("inf")))
+
+
+def site_tier(record: dict) -> str:
+    """'leading', 'competing' or 'minor' from the gap to the best site and the error of that gap.
+
+    >>> site_tier({"dG_ion_vs_best_kcal_mol": 3.0, "dG_ion_vs_best_uncertainty_kcal_mol": 3.2})
+    'leading'
+    >>> site_tier({"hia_vs_best_kcal_mol": 3.0, "hia_vs_best_uncertainty_kcal_mol": 0.5})
+    'competing'
+    """
+    for stem in ("dG_ion", "hia"):
+        gap = record.get(f"{stem}_vs_best_kcal_mol")
+        if isinstance(gap, (int, float)):
+            error = record.get(f"{stem}_vs_best_uncertainty_kcal_mol") or 0.0
+            if gap <= error:
+                return SITE_TIERS[0][0]
+            return next(name for name, limit in SITE_TIERS if gap <= limit)
+    return ""
+
+
 SUBSTRATE = Column("substrate", "substrate", get=_substrate)
 SITE = Column("site", "site (atom–group)", get=_site)
 CATION = Column("cation_smiles", "cation", "smiles")
@@ -96,7 +120,8 @@ VIEWS: dict[str, tuple[Column, ...]] = {
     "thermo": (Column("smiles", "species", "smiles"), Column("G_kcal_mol", "G − E (kcal/mol)", "value", digits=2),
                Column("S_J_mol_K", "S (J/mol/K)", "value"), Column("point_group", "point group")),
     "ionize": (SUBSTRATE, SITE, CATION, DG_ION, DDG_ION, VERDICT, REARRANGEMENT),
-    "sites": (SUBSTRATE, Column("rank", "rank", "int"), SITE, CATION, DG_ION,
+    "sites": (SUBSTRATE, Column("rank", "rank", "int"), Column("tier", "site tier", get=site_tier), SITE, CATION,
+              DG_ION,
               Column("dG_ion_vs_best_kcal_mol", "ΔG_ion − best (kcal/mol)", "value",
                      "dG_ion_vs_best_uncertainty_kcal_mol"),
               HIA, Column("hia_vs_best_kcal_mol", "HIA − best (kcal/mol)", "value", "hia_vs_best_uncertainty_kcal_mol"),
@@ -157,4 +182,4 @@ def view(task: str, records: list[dict]) -> list[Column]:
     return [c for c in columns if c is SUBSTRATE or any(value_of(c, r) not in (None, "", []) for r in records)]
 
 
-__all__ = ["Column", "VIEWS", "cell", "note", "view", "short_smiles", "value_of", "SMILES_WIDTH"]
+__all__ = ["Column", "VIEWS", "SITE_TIERS", "site_tier", "cell", "note", "view", "short_smiles", "value_of", "SMILES_WIDTH"]

@@ -518,6 +518,7 @@ table{border-collapse:collapse;font-size:.88em;margin:.5em 0}
 div.wrap{max-width:100%;overflow-x:auto} table.results{width:100%}
 table.results td{overflow-wrap:normal;vertical-align:top} td.smiles code{white-space:nowrap}
 td.verdict{min-width:14em} td.verdict small{color:#555}
+td.tier-leading{background:#d97a00;color:#fff} td.tier-competing{background:#f3c98b} td.tier-minor{color:#777}
 th,td{border:1px solid #ccc;padding:3px 7px;text-align:left}
 th{background:#f2f2f2} td.num{text-align:right;font-variant-numeric:tabular-nums}
 .caution{background:#fff4e5;border-left:4px solid #e69500;padding:.6em 1em}
@@ -601,6 +602,8 @@ def task_table_html(task: str, rows: list[dict]) -> str:
             if c is VERDICT and text:
                 reason = r.get("verdict_reason") or ""
                 cells.append(f'<td class="verdict"><b>{esc(text)}</b><br><small>{esc(reason)}</small></td>')
+            elif c.key == "tier" and text:
+                cells.append(f'<td class="tier tier-{esc(text)}">{esc(text)}</td>')
             elif c.kind == "smiles":
                 cells.append(f'<td class="smiles"><code>{esc(text)}</code></td>')
             elif c.kind in ("value", "int", "factor"):
@@ -659,6 +662,10 @@ def report_html(plan, records: list[dict], results: list[SpeciesResult], prov: d
         if not rows:
             continue
         parts.append(f"<h3>{esc(TASK_TITLES.get(task.name, task.name))} ({esc(task.name)})</h3>")
+        if task.name == "sites":
+            parts.append("<p>Site tiers (this project's): <b>leading</b> when the gap to the best site is within "
+                         "the error of that gap or within 1.4 kcal/mol (a factor 10 in K at 298 K), "
+                         "<b>competing</b> within 4.1 kcal/mol (a factor 1000), <b>minor</b> beyond.</p>")
         parts.append(task_table_html(task.name, rows))
         cols = _task_columns(task.name, rows)
         parts.append("<details><summary>all numbers of this table (record keys as in results.csv)</summary>"

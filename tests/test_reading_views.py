@@ -56,7 +56,10 @@ def test_wide_option_and_views_per_task():
     for task in ("hia", "ionize", "sites", "ladder"):
         headers = [c.header for c in VIEWS[task]]
         assert all(not re.fullmatch(r"[a-z_]+_(kcal_mol|kJ_mol)", h) for h in headers)
-        assert len(headers) <= 10
+        assert len(headers) <= 11
+    scan = {"name": "x", "rank": 1, "site_atom": 1, "leaving_group": "chloride", "cation_smiles": "C[C+](C)C",
+            "dG_ion_kcal_mol": 1.0, "dG_ion_vs_best_kcal_mol": 0.0, "verdict": "v", "rearrangement": "r"}
+    assert len(view("sites", [scan])) <= 9  # a leaving-group scan shows no HIA columns
     # a new task is one more entry (the kinetics task adds its own in the same way)
     extended = {**VIEWS, "demo": (Column("k_demo_per_s", "k (s⁻¹)", "factor"),)}
     assert cell(extended["demo"][0], {"k_demo_per_s": 1234.5}) == "1.2e+03"
@@ -159,3 +162,17 @@ def test_rank_gaps_carry_the_error_of_a_same_class_difference():
     assert gap["hia_vs_best_uncertainty_kcal_mol"] == round(expected, 1)
     assert gap["hia_vs_best_uncertainty_kcal_mol"] < gap["hia_uncertainty_kcal_mol"]
     assert "alkyl pairs" in gap["hia_vs_best_uncertainty_basis"] and "bias" in gap["hia_vs_best_uncertainty_basis"]
+
+
+def test_site_tiers_follow_the_gap_and_its_error():
+    # project's own tier limits: 1.4 kcal/mol (factor 10 in K at 298 K) and 4.1 kcal/mol (factor 1000),
+    # RT ln 10 = 1.36 kcal/mol at 298.15 K (common practice, no source)
+    from cationcalc import units
+    from cationcalc.columns import SITE_TIERS, site_tier
+
+    assert SITE_TIERS[0][1] == round(units.rt_kcal_mol(298.15) * 2.302585, 1)
+    assert SITE_TIERS[1][1] == round(3 * units.rt_kcal_mol(298.15) * 2.302585, 1)
+    assert site_tier({"dG_ion_vs_best_kcal_mol": 0.0}) == "leading"
+    assert site_tier({"dG_ion_vs_best_kcal_mol": 2.0, "dG_ion_vs_best_uncertainty_kcal_mol": 0.3}) == "competing"
+    assert site_tier({"dG_ion_vs_best_kcal_mol": 2.0, "dG_ion_vs_best_uncertainty_kcal_mol": 2.5}) == "leading"
+    assert site_tier({"hia_vs_best_kcal_mol": 9.0, "hia_vs_best_uncertainty_kcal_mol": 1.0}) == "minor"
