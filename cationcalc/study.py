@@ -771,7 +771,10 @@ def describe_plan(plan: Plan) -> str:
     lines.append("")
     lines.append(f"  distinct species: {len(total_needed)}, {stored_total} already in the store, "
                  f"{len(total_needed) - stored_total} to compute"
-                 + ("; tasks marked (task) find their own species at run time" if unknown else ""))
+                 + ("; tasks marked (task) find their own species at run time" if unknown else "")
+                 + ("; 1,2-shift products of the cations formed are found during the run and come on top"
+                    if any(t.name in ("ionize", "sites") and t.options.get("shifts", True) for t in plan.tasks)
+                    else ""))
     lines.extend(rejected_notes[:20])
     if len(rejected_notes) > 20:
         lines.append(f"  ... and {len(rejected_notes) - 20} more rejected inputs")
