@@ -159,25 +159,34 @@ def _print_view(task: str, records: list[dict]) -> None:
     table = Table(title=f"{TITLES[task]} — {first.get('level', '')}, {first.get('temperature_k', 298.15)} K",
                   title_justify="left")
     columns = view(task, records)
+    # widths are fixed here, not left to the table: SMILES and numbers are never wrapped inside a token
+    # (too long a SMILES ends in "…", the full one is in --json); text wraps between words only, and a
+    # terminal narrower than the narrowest layout gets the table at its own width instead of a cropped one
+    notes = [note(r) for r in records]
+    specs = []  # (header, narrowest, widest, wraps, justify)
     for column in columns:
-        # SMILES and numbers are never wrapped inside a token: they keep their full width, and too long a
-        # SMILES ends in "…" (the full one is in --json); text wraps between words only
         texts = [cell(column, r) for r in records]
         wrap = column.kind == "text"
         widest = max([len(t) for t in texts] + [1])
         longest_word = max([len(w) for t in texts for w in t.split()] + [1])
-        width = min(longest_word, 40) if wrap else widest
-        header = "\n".join(textwrap.wrap(column.header, max(width, 10), break_long_words=False,
-                                                 break_on_hyphens=False))
-        table.add_column(header, no_wrap=not wrap, overflow="ellipsis", min_width=width,
-                         justify="right" if column.kind in ("value", "int", "factor") else "left")
-    notes = [note(r) for r in records]
-    table.add_column("note", no_wrap=True, min_width=max([len(n) for n in notes] + [4]))
-    # never crop: when the narrowest layout is wider than the terminal, the table is printed at its own width
-    from rich.measure import Measurement
-
-    needed = Measurement.get(console, console.options.update(width=10_000), table).minimum
+        narrowest = max(min(longest_word, 40) if wrap else widest, 6)
+        header = "\n".join(textwrap.wrap(column.header, max(narrowest, 10), break_long_words=False,
+                                         break_on_hyphens=False))
+        narrowest = max(narrowest, *(len(line) for line in header.split("\n")))
+        specs.append([header, narrowest, max(widest, narrowest), wrap,
+                      "right" if column.kind in ("value", "int", "factor") else "left"])
+    note_width = max([len(n) for n in notes] + [4])
+    needed = sum(spec[1] + 3 for spec in specs) + note_width + 3 + 1
     console = Console(width=max(console.width, needed))
+    spare = console.width - needed
+    for spec in specs:  # give the room left to the text columns, up to their widest line
+        if spec[3] and spare > 0:
+            extra = min(spare, spec[2] - spec[1])
+            spec[1] += extra
+            spare -= extra
+    for header, width, _, wrap, justify in specs:
+        table.add_column(header, no_wrap=not wrap, overflow="ellipsis", width=width, justify=justify)
+    table.add_column("note", no_wrap=True, width=note_width)
     errors: list[str] = []
     for r in records:
         flag = note(r)
