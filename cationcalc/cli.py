@@ -173,7 +173,7 @@ def _print_view(task: str, records: list[dict]) -> None:
         header = "\n".join(textwrap.wrap(column.header, max(narrowest, 10), break_long_words=False,
                                          break_on_hyphens=False))
         narrowest = max(narrowest, *(len(line) for line in header.split("\n")))
-        specs.append([header, narrowest, max(widest, narrowest), wrap,
+        specs.append([column.header, narrowest, max(widest, narrowest), wrap,
                       "right" if column.kind in ("value", "int", "factor") else "left"])
     note_width = max([len(n) for n in notes] + [4])
     needed = sum(spec[1] + 3 for spec in specs) + note_width + 3 + 1
@@ -185,7 +185,8 @@ def _print_view(task: str, records: list[dict]) -> None:
             spec[1] += extra
             spare -= extra
     for header, width, _, wrap, justify in specs:
-        table.add_column(header, no_wrap=not wrap, overflow="ellipsis", width=width, justify=justify)
+        lines = textwrap.wrap(header, max(width, 10), break_long_words=False, break_on_hyphens=False)
+        table.add_column("\n".join(lines), no_wrap=not wrap, overflow="ellipsis", width=width, justify=justify)
     table.add_column("note", no_wrap=True, width=note_width)
     errors: list[str] = []
     for r in records:
