@@ -426,9 +426,10 @@ def _pkr_values(rs: ReferenceSet, entries, settings: Settings, workers, store, p
 # ------------------------------------------------------------------ trends
 
 def _trend(name: str, expectation: str, computed: str, experiment: str, source: str, passed: bool | None,
-           note: str = "") -> dict:
+           note: str = "", status: str = "read") -> dict:
+    """One row of the trend table; ``status`` says how the experimental value was obtained (read/derived/recalled)."""
     return {"check": name, "expectation": expectation, "computed": computed, "experiment": experiment,
-            "source": source, "passed": passed, "note": note}
+            "source": source, "status": status, "passed": passed, "note": note}
 
 
 def _hia_of(hia: dict[str, dict], smiles: str) -> float | None:
@@ -494,29 +495,29 @@ def trend_checks(hia: dict[str, dict], isomer_h: dict[str, dict[str, float | Non
             # ΔfH(benzyl+) − ΔfH(tropylium+) from the two 0 K onsets (HIA0) and ΔfH of toluene (12.0) and
             # cycloheptatriene (43.9 kcal/mol), values from memory of the NIST/Pedley compilations
             exp_gap = (gas_table["benzyl (0 K, onset)"] - gas_table["tropylium (0 K, onset)"]) + (12.0 - 43.9)
-            exp_text = f"benzyl +{exp_gap:.1f} (derived: onsets read, ΔfH(RH) from memory)"
-            src = TORMA_2019
+            exp_text = f"benzyl +{exp_gap:.1f}"
+            src, status = TORMA_2019, "derived"
         else:
-            exp_text = "propargyl ≈ +25 (value from memory)"
-            src = f"value from memory of {LIAS_1988}"
+            exp_text = "propargyl ≈ +25"
+            src, status = LIAS_1988, "recalled"
         out.append(_trend(
             f"aromatic stabilization {formula}", f"{names[0]} lowest in enthalpy among {', '.join(names)}",
             ", ".join(f"{n} {_fmt(rel.get(n)) if n != names[0] else '0'}" for n in names) + " kcal/mol",
-            exp_text, src, passed))
+            exp_text, src, passed, status=status))
     for name in ("vinyl", "phenyl"):
         a, b = h[name], h["2-propyl"]
         out.append(_trend(
             f"σ cation: {name} vs 2-propyl", f"HIA {name} > 2-propyl",
             f"{_fmt(a)} vs {_fmt(b)}", {"vinyl": "≈289", "phenyl": "≈287"}[name] + f" vs {gas_table['2-propyl']}",
-            f"value from memory of {LIAS_1988} (approximate); 2-propyl: {HOULE_1979}",
-            None if a is None or b is None else a > b))
+            f"{LIAS_1988}; 2-propyl: {HOULE_1979}",
+            None if a is None or b is None else a > b, status="recalled"))
     a, b = h["2-propenyl"], h["allyl"]
     out.append(_trend(
         "2-propenyl (vinylic) vs allyl", "HIA 2-propenyl > allyl",
         f"{_fmt(a)} vs {_fmt(b)} (Δ {_fmt(None if a is None or b is None else a - b)})",
-        f"≈261 vs {gas_table['allyl']}", f"2-propenyl: value from memory of {LIAS_1988}; allyl: TPEPICO, "
-        "J. Phys. Chem. A 2009, 113, 10710", None if a is None or b is None else a > b,
-        "a known failure of GFN2-xTB, which overstabilizes vinyl cations"))
+        f"≈261 vs {gas_table['allyl']}", f"2-propenyl: {LIAS_1988}; allyl: J. Phys. Chem. A 2009, 113, 10710",
+        None if a is None or b is None else a > b,
+        "a known failure of GFN2-xTB, which overstabilizes vinyl cations", status="recalled (2-propenyl)"))
     for key, label in (("sigma_benzyl", "benzyl"), ("sigma_cumyl", "cumyl")):
         c = correlations.get(key)
         if c is None:
@@ -723,7 +724,8 @@ def format_report(report: dict) -> str:
         lines.append(f"After calibration (HIA_exp ≈ a·HIA_calc + b, a = {a:.3f} > 0) every HIA order above is kept, so "
                      "each HIA verdict is the same; computed gaps scale by a (isomer enthalpies are not calibrated).")
     for t in report["trends"]:
-        lines.append(f"- {t['check']}: source {t['source']}" + (f"; {t['note']}" if t["note"] else ""))
+        lines.append(f"- {t['check']}: source {t['source']}; status {t.get('status', 'read')}"
+                     + (f"; {t['note']}" if t["note"] else ""))
     lines.append("")
     if report.get("kinetics"):
         from .rate_checks import format_rate_checks

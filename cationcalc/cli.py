@@ -22,6 +22,7 @@ import argparse
 import json
 import re
 import sys
+import textwrap
 
 from . import SAFETY_NOTE, __version__
 
@@ -144,12 +145,14 @@ def _ionization_footer(task: str, records: list[dict]) -> list[str]:
             lines.append(first["solvation_note"][0].upper() + first["solvation_note"][1:] + ".")
     if "hia_kcal_mol" in first:
         lines.append(f"HIA by isodesmic hydride exchange with the {first['reference']} cation "
-                     f"(HIA {first['reference_hia_kcal_mol']} kcal/mol, {first['reference_source']}).")
+                     f"(HIA {first['reference_hia_kcal_mol']} kcal/mol, {first['reference_source']}; "
+                     f"status {first.get('reference_status') or 'read'}).")
     if task == "ladder":
         lines.append(first["ladder_note"] + ".")
         if first.get("spearman_rho_vs_solvolysis") is not None:
             lines.append(f"Spearman ρ(−ΔG_ion, lg k_rel) = {first['spearman_rho_vs_solvolysis']:+.2f} over "
-                         f"{first['solvolysis_n']} groups; k_rel: {first['solvolysis_source']}.")
+                         f"{first['solvolysis_n']} groups; k_rel: {first['solvolysis_source']}; "
+                         f"status {first.get('solvolysis_status') or 'read'}.")
     rules = verdict_rules()
     quantity, label = ("ddG_ion", "ΔΔG_ion vs tert-butyl") if "dG_ion_kcal_mol" in first else ("dHIA", "ΔHIA vs tert-butyl")
     thresholds = "; ".join(f"{label} ≤ {r['limit_kcal_mol']} → {r['verdict']}" for r in rules
@@ -164,6 +167,69 @@ def _ionization_footer(task: str, records: list[dict]) -> list[str]:
     return lines
 
 
+def _title(task: str, first: dict) -> str:
+    if task == "rate":
+        return f"{TITLES[task]} — E_f from HIA at {first.get('level', '')}, k at {first.get('rate_temperature_k')} K"
+    return f"{TITLES[task]} — {first.get('level', '')}, {first.get('temperature_k', 298.15)} K"
+
+
+def _print_view(task: str, records: list[dict]) -> None:
+    """The default table: the task's reading view (cationcalc/columns.py), one short note per row."""
+    from rich.console import Console
+    from rich.markup import escape
+    from rich.table import Table
+
+    from .columns import cell, note, view
+
+    console = Console(width=max(120, Console().width))
+    first = records[0] if records else {}
+    table = Table(title=_title(task, first), title_justify="left")
+    columns = view(task, records)
+    # widths are fixed here, not left to the table: SMILES and numbers are never wrapped inside a token
+    # (too long a SMILES ends in "…", the full one is in --json); text wraps between words only, and a
+    # terminal narrower than the narrowest layout gets the table at its own width instead of a cropped one
+    notes = [note(r) for r in records]
+    specs = []  # (header, narrowest, widest, wraps, justify)
+    for column in columns:
+        texts = [cell(column, r) for r in records]
+        wrap = column.kind == "text"
+        widest = max([len(t) for t in texts] + [1])
+        longest_word = max([len(w) for t in texts for w in t.split()] + [1])
+        narrowest = max(min(longest_word, 40) if wrap else widest, 6)
+        header = "\n".join(textwrap.wrap(column.header, max(narrowest, 10), break_long_words=False,
+                                         break_on_hyphens=False))
+        narrowest = max(narrowest, *(len(line) for line in header.split("\n")))
+        specs.append([column.header, narrowest, max(widest, narrowest), wrap,
+                      "right" if column.kind in ("value", "int", "factor") else "left"])
+    note_width = max([len(n) for n in notes] + [4])
+    needed = sum(spec[1] + 3 for spec in specs) + note_width + 3 + 1
+    console = Console(width=max(console.width, needed))
+    spare = console.width - needed
+    for spec in specs:  # give the room left to the text columns, up to their widest line
+        if spec[3] and spare > 0:
+            extra = min(spare, spec[2] - spec[1])
+            spec[1] += extra
+            spare -= extra
+    for header, width, _, wrap, justify in specs:
+        lines = textwrap.wrap(header, max(width, 10), break_long_words=False, break_on_hyphens=False)
+        table.add_column("\n".join(lines), no_wrap=not wrap, overflow="ellipsis", width=width, justify=justify)
+    table.add_column("note", no_wrap=True, width=note_width)
+    errors: list[str] = []
+    for r in records:
+        flag = note(r)
+        if r.get("error"):
+            errors.append(f"{r.get('name') or r.get('input', '')}: {r['error']}")
+            flag = flag.replace("error", f"[red]error {len(errors)}[/red]", 1)
+        table.add_row(*[escape(cell(c, r)) for c in columns], flag)
+    console.print(table)
+    for i, message in enumerate(errors, 1):
+        console.print(f"[red]error {i}[/red]: {escape(message)}", highlight=False)
+    if any(r.get("warnings") for r in records):
+        console.print("Notes: the diagnostics behind each count are in --json (warnings); --wide prints every "
+                      "column and note.", highlight=False)
+    _print_footer(console, task, records, first)
+
+
 def _print_table(task: str, records: list[dict]) -> None:
     from rich.console import Console
     from rich.markup import escape
@@ -174,10 +240,7 @@ def _print_table(task: str, records: list[dict]) -> None:
 
     console = Console(width=max(120, Console().width))
     first = records[0] if records else {}
-    title = TITLES[task]
-    heading = (f"{title} — E_f from HIA at {first.get('level', '')}, k at {first.get('rate_temperature_k')} K"
-               if task == "rate" else f"{title} — {first.get('level', '')}, {first.get('temperature_k', 298.15)} K")
-    table = Table(title=heading, title_justify="left")
+    table = Table(title=_title(task, first), title_justify="left")
     # columns nobody has a value for are left out (e.g. HIA columns of a leaving-group site scan)
     columns = [(key, header) for key, header in COLUMNS[task]
                if key in ("cation_smiles", "substrate_smiles", "smiles")
@@ -210,6 +273,12 @@ def _print_table(task: str, records: list[dict]) -> None:
     console.print(table)
     for i, message in enumerate(errors, 1):
         console.print(f"[red]error {i}[/red]: {escape(message)}", highlight=False)
+    _print_footer(console, task, records, first)
+
+
+def _print_footer(console, task: str, records: list[dict], first: dict) -> None:
+    from rich.markup import escape
+
     if task in ("ionize", "sites", "ladder"):
         for line in _ionization_footer(task, records):
             console.print(escape(line), highlight=False)
@@ -220,7 +289,7 @@ def _print_table(task: str, records: list[dict]) -> None:
             console.print(escape(line), highlight=False)
     if task == "hia" and first.get("reference"):
         console.print(f"Anchor: {first['reference']} cation, HIA {first['reference_hia_kcal_mol']} kcal/mol "
-                      f"({first['reference_source']}). HIA = ΔH298 of R⁺ + H⁻ → R–H by isodesmic hydride exchange.")
+                      f"({first['reference_source']}; status {first.get('reference_status') or 'read'}). HIA = ΔH298 of R⁺ + H⁻ → R–H by isodesmic hydride exchange.")
     if task == "heterolysis":
         console.print("Standard state: 1 atm in the gas phase, 1 mol/L in solution (1 atm → 1 M applied once per species).")
     if task == "shifts":
@@ -269,6 +338,8 @@ def build_parser() -> argparse.ArgumentParser:
         out = p.add_mutually_exclusive_group()
         out.add_argument("--json", action="store_true", help="print a JSON list of records")
         out.add_argument("--csv", action="store_true", help="print CSV records")
+        p.add_argument("--wide", action="store_true",
+                       help="terminal table with every column and every note (default: the short reading view)")
         p.add_argument("--profile", action="store_true", help="print where the time went (stderr)")
         p.add_argument("--store", default=None, metavar="FILE",
                        help="SQLite result store: species already in it are read, new ones added")
@@ -339,6 +410,7 @@ def build_parser() -> argparse.ArgumentParser:
     rate_out = p_rate.add_mutually_exclusive_group()
     rate_out.add_argument("--json", action="store_true", help="print a JSON list of records")
     rate_out.add_argument("--csv", action="store_true", help="print CSV records")
+    p_rate.add_argument("--wide", action="store_true", help="every column and every note in the terminal table")
     p_rate.add_argument("--profile", action="store_true", help="print where the time went (stderr)")
     p_rate.add_argument("--store", default=None, metavar="FILE",
                         help="SQLite result store: species already in it are read, new ones added")
@@ -484,8 +556,10 @@ def main(argv: list[str] | None = None) -> int:
     elif args.csv:
         sys.stdout.write(_write_csv(records))
         print(SAFETY_NOTE, file=sys.stderr)
-    else:
+    elif args.wide:
         _print_table(args.command, records)
+    else:
+        _print_view(args.command, records)
     if args.profile:
         wall = sum(r.get("profile", {}).get("wall_s", 0) for r in records)
         engine = sum(r.get("profile", {}).get("engine_s", 0) for r in records)

@@ -4,7 +4,8 @@ Pure chemistry on molecular graphs; nothing here computes energies.
 
 * :func:`heterolysis_sites` lists every symmetry-distinct C–X bond the
   leaving-group library recognises (optionally after protonating alcohol and
-  ether oxygens, ``acid=True``), each with the substrate, the carbocation and
+  ether oxygens, and the carbonyl oxygen of esters and carbamates so that the
+  neutral carboxylic or carbamic acid leaves, ``acid=True``), each with the substrate, the carbocation and
   the departing species, atom indices in the input as given.
 * :func:`hydride_sites` lists the cation of every symmetry-distinct C–H
   (hydride abstraction from a hydrocarbon or any neutral).
@@ -63,9 +64,28 @@ class IonizationSite:
     group: LeavingGroup | None = field(default=None, compare=False)
 
 
+#: the carbonyl oxygen of an ester or a carbamate (O=C–O–C): acid protonates it, and the alkyl group then
+#: leaves as a cation with the neutral carboxylic or carbamic acid (tert-butyl esters, Boc groups)
+_ESTER_CARBONYL_OXYGEN = Chem.MolFromSmarts("[OX1;+0]=[CX3;$(C-[#6,#7,#1]),$([CH1])]-[OX2;+0]-[#6]")
+
+#: library names of the groups that leave from a carbonyl-protonated ester or carbamate
+CARBONYL_ACID_GROUPS = ("carboxylic acid", "carbamic acid")
+
+
 def protonation_sites(mol: Chem.Mol) -> list[int]:
-    """Indices of alcohol and ether oxygens (what ``--acid`` protonates)."""
+    """Indices of alcohol and ether oxygens (what ``--acid`` protonates to make water or an alcohol leave)."""
     return sorted({m[0] for m in mol.GetSubstructMatches(_BASIC_OXYGEN)})
+
+
+def carbonyl_protonation_sites(mol: Chem.Mol) -> list[int]:
+    """Indices of ester and carbamate carbonyl oxygens (``--acid`` protonates them too).
+
+    >>> carbonyl_protonation_sites(Chem.MolFromSmiles("CC(=O)OC(C)(C)C"))
+    [2]
+    >>> carbonyl_protonation_sites(Chem.MolFromSmiles("CNC(=O)OC(C)(C)C"))
+    [3]
+    """
+    return sorted({m[0] for m in mol.GetSubstructMatches(_ESTER_CARBONYL_OXYGEN)})
 
 
 def protonate(mol: Chem.Mol, oxygen: int) -> Chem.Mol:
@@ -91,20 +111,25 @@ def heterolysis_sites(text: str, *, leaving_group: LeavingGroup | None = None, a
     mol = parse(text, force=force)
     for atom in mol.GetAtoms():
         atom.SetAtomMapNum(0)
-    candidates: list[tuple[Chem.Mol, int | None]] = [(mol, None)]
-    if acid:  # a substrate without alcohol or ether oxygens is left as it is
-        candidates += [(protonate(mol, o), o) for o in protonation_sites(mol)]
+    # (substrate, protonated oxygen, True when that oxygen is a carbonyl oxygen)
+    candidates: list[tuple[Chem.Mol, int | None, bool]] = [(mol, None, False)]
+    if acid:  # a substrate without alcohol, ether, ester or carbamate oxygens is left as it is
+        candidates += [(protonate(mol, o), o, False) for o in protonation_sites(mol)]
+        candidates += [(protonate(mol, o), o, True) for o in carbonyl_protonation_sites(mol)]
     sites: list[IonizationSite] = []
     skipped: list[str] = []
     seen: dict[tuple, int] = {}
-    for substrate_mol, oxygen in candidates:
+    for substrate_mol, oxygen, carbonyl in candidates:
         ranks = _symmetry_ranks(substrate_mol)
         for found in find_leaving_groups(substrate_mol, only=leaving_group):
-            if oxygen is not None and found.leaving_atom != oxygen:
+            if carbonyl:
+                if found.group.name not in CARBONYL_ACID_GROUPS:
+                    continue  # the carbonyl-protonated ester loses the neutral acid, nothing else
+            elif oxygen is not None and found.leaving_atom != oxygen:
                 continue  # the protonated substrate ionizes at the protonated oxygen
             if oxygen is None and acid and found.leaving_atom in protonation_sites(mol):
                 continue  # under acid this oxygen leaves protonated (as water or an alcohol)
-            key = (oxygen is not None, ranks[found.carbon], ranks[found.leaving_atom])
+            key = (oxygen is not None, carbonyl, ranks[found.carbon], ranks[found.leaving_atom])
             if key in seen:
                 first = sites[seen[key]]
                 sites[seen[key]] = _with_equivalent(first, found.carbon)
@@ -137,10 +162,35 @@ def _split_tracked(mol: Chem.Mol, carbon: int, leaving_atom: int) -> tuple[Chem.
     tagged.GetAtomWithIdx(leaving_atom).SetAtomMapNum(1)
     cation, departing = split_bond(tagged, carbon, leaving_atom)
     index = next(a.GetIdx() for a in departing.GetAtoms() if a.GetAtomMapNum() == 1)
+    departing = _neutral_acid(departing, index)
     departing.GetAtomWithIdx(index).SetAtomMapNum(0)
     canonical = Chem.MolToSmiles(departing)
     order = list(departing.GetPropsAsDict(True, True)["_smilesAtomOutputOrder"])
     return cation, Chem.MolFromSmiles(canonical), order.index(index)
+
+
+def _neutral_acid(departing: Chem.Mol, index: int) -> Chem.Mol:
+    """R–C(=O⁺H)–O⁻ (what a carbonyl-protonated ester leaves as, drawn as split) → R–C(=O)–OH; atom order kept."""
+    leaving = departing.GetAtomWithIdx(index)
+    if leaving.GetSymbol() != "O" or leaving.GetFormalCharge() != -1 or leaving.GetDegree() != 1:
+        return departing
+    carbon = leaving.GetNeighbors()[0]
+    partner = next((b.GetOtherAtom(carbon) for b in carbon.GetBonds()
+                    if b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(carbon).GetSymbol() == "O"
+                    and b.GetOtherAtom(carbon).GetFormalCharge() == 1 and b.GetOtherAtom(carbon).GetTotalNumHs() == 1),
+                   None)
+    if partner is None:
+        return departing
+    rw = Chem.RWMol(departing)
+    _freeze_hydrogens(rw)
+    o_minus, o_plus = rw.GetAtomWithIdx(index), rw.GetAtomWithIdx(partner.GetIdx())
+    o_minus.SetFormalCharge(0)
+    o_minus.SetNumExplicitHs(o_minus.GetNumExplicitHs() + 1)
+    o_plus.SetFormalCharge(0)
+    o_plus.SetNumExplicitHs(max(0, o_plus.GetNumExplicitHs() - 1))
+    out = rw.GetMol()
+    Chem.SanitizeMol(out)
+    return out
 
 
 def _with_equivalent(site: IonizationSite, atom: int) -> IonizationSite:
@@ -264,8 +314,34 @@ def structurally_flagged(cls: str) -> bool:
     return any(r["kind"] == "class" and r["key"] == cls.split(" (")[0] for r in verdict_rules())
 
 
+#: |Δ| (kcal/mol) below which two numbers are called "about the same" in verdict text (RT ln 2 at 298 K is 0.4)
+ABOUT_THE_SAME_KCAL_MOL = 0.5
+
+
+def comparison(quantity: str, value: float, temperature_k: float = 298.15) -> str:
+    """The comparison with tert-butyl in words that follow the sign and size of the number.
+
+    >>> comparison("ddG_ion", 8.4)
+    'ionizes less easily than the tert-butyl substrate (K_ion about 1e6× smaller)'
+    >>> comparison("ddG_ion", -3.0)
+    'ionizes more easily than the tert-butyl substrate (K_ion about 2e2× larger)'
+    >>> comparison("dHIA", 0.2)
+    'about as stable as the tert-butyl cation'
+    """
+    if abs(value) < ABOUT_THE_SAME_KCAL_MOL:
+        return ("ionizes about as easily as the tert-butyl substrate" if quantity == "ddG_ion"
+                else "about as stable as the tert-butyl cation")
+    if quantity != "ddG_ion":
+        return (f"less stable than the tert-butyl cation by {value:.1f} kcal/mol" if value > 0
+                else f"more stable than the tert-butyl cation by {-value:.1f} kcal/mol")
+    factor = math.exp(abs(value) / units.rt_kcal_mol(temperature_k))
+    size = f"{factor:.0e}".replace("e+0", "e").replace("e+", "e")
+    return (f"ionizes less easily than the tert-butyl substrate (K_ion about {size}× smaller)" if value > 0
+            else f"ionizes more easily than the tert-butyl substrate (K_ion about {size}× larger)")
+
+
 def verdict(cls: str, *, ddG_ion_kcal_mol: float | None = None, dG_ion_kcal_mol: float | None = None,
-            dHIA_kcal_mol: float | None = None, solution: bool = False) -> Verdict:
+            dHIA_kcal_mol: float | None = None, solution: bool = False, temperature_k: float = 298.15) -> Verdict:
     """Plausibility of unassisted ionization from the cation class and the computed numbers.
 
     ``ddG_ion_kcal_mol`` is relative to the tert-butyl substrate with the same
@@ -280,13 +356,16 @@ def verdict(cls: str, *, ddG_ion_kcal_mol: float | None = None, dG_ion_kcal_mol:
     'SN1/E1 plausible'
     """
     rules = verdict_rules()
+    # judged on the numbers as printed (one decimal), so a printed +10.0 never falls on the far side of 10
+    if dG_ion_kcal_mol is not None:
+        dG_ion_kcal_mol = round(dG_ion_kcal_mol, 1)
     if ddG_ion_kcal_mol is not None:
-        quantity, value, label = "ddG_ion", ddG_ion_kcal_mol, "ΔΔG_ion vs tert-butyl"
+        quantity, value, label = "ddG_ion", round(ddG_ion_kcal_mol, 1), "ΔΔG_ion vs tert-butyl"
     elif dHIA_kcal_mol is not None:
-        quantity, value, label = "dHIA", dHIA_kcal_mol, "HIA − HIA(tert-butyl)"
+        quantity, value, label = "dHIA", round(dHIA_kcal_mol, 1), "HIA − HIA(tert-butyl)"
     else:
         raise ValueError("verdict needs ddG_ion_kcal_mol or dHIA_kcal_mol")
-    number = f"{label} = {value:+.1f} kcal/mol"
+    number = f"{label} = {value:+.1f} kcal/mol: {comparison(quantity, value, temperature_k)}"
     structural = next((r for r in rules if r["kind"] == "class" and r["key"] == cls.split(" (")[0]), None)
     exergonic = next(r for r in rules if r["kind"] == "threshold" and r["key"] == "exergonic")
     if structural is not None:
@@ -313,6 +392,8 @@ def reference_substrate(site: IonizationSite, skeleton: str = TERT_BUTYL) -> Ion
     """
     if site.leaving_atom is None or site.departing_atom is None:
         raise ValueError("hydride sites have no departing group to transfer")
+    if site.leaving_group in CARBONYL_ACID_GROUPS:
+        return _carbonyl_acid_reference(site, skeleton)
     departing = Chem.MolFromSmiles(site.departing.smiles)
     skel, dummy, carbon = attachment_point(skeleton)
     combined = Chem.RWMol(Chem.CombineMols(skel, departing))  # the skeleton keeps its atom indices
@@ -326,6 +407,27 @@ def reference_substrate(site: IonizationSite, skeleton: str = TERT_BUTYL) -> Ion
     smiles = Chem.MolToSmiles(mol)
     skel_cation = skeleton_cation_smiles(skeleton)
     for x in heterolysis_sites(smiles, force=True):
+        if x.leaving_group == site.leaving_group and x.departing == site.departing and x.cation.smiles == skel_cation:
+            return x
+    raise InputError(f"reference skeleton {skeleton!r} does not ionize to one cation with {site.leaving_group}")
+
+
+def _carbonyl_acid_reference(site: IonizationSite, skeleton: str) -> IonizationSite:
+    """The skeleton's ester or carbamate of the same acid, protonated on its carbonyl oxygen as ``site`` is."""
+    acid_mol = Chem.RWMol(Chem.MolFromSmiles(site.departing.smiles))
+    _freeze_hydrogens(acid_mol)
+    oxygen = acid_mol.GetAtomWithIdx(site.departing_atom)
+    oxygen.SetNumExplicitHs(max(0, oxygen.GetNumExplicitHs() - 1))  # R–C(=O)OH → R–C(=O)O–*
+    acid_mol.AddAtom(Chem.Atom(0))
+    acid_mol.AddBond(site.departing_atom, acid_mol.GetNumAtoms() - 1, Chem.BondType.SINGLE)
+    substituent = acid_mol.GetMol()
+    Chem.SanitizeMol(substituent)
+    mol, dummy, _ = attachment_point(skeleton)
+    mol.GetAtomWithIdx(dummy).SetAtomMapNum(1)
+    substituent.GetAtomWithIdx(substituent.GetNumAtoms() - 1).SetAtomMapNum(1)
+    smiles = Chem.MolToSmiles(Chem.molzip(mol, substituent))
+    skel_cation = skeleton_cation_smiles(skeleton)
+    for x in heterolysis_sites(smiles, acid=True, force=True):
         if x.leaving_group == site.leaving_group and x.departing == site.departing and x.cation.smiles == skel_cation:
             return x
     raise InputError(f"reference skeleton {skeleton!r} does not ionize to one cation with {site.leaving_group}")
@@ -353,5 +455,5 @@ def equilibrium_factor(ddG_kcal_mol: float, temperature_k: float) -> float:
     return math.exp(-ddG_kcal_mol / units.rt_kcal_mol(temperature_k))
 
 
-__all__ = ["IonizationSite", "heterolysis_sites", "hydride_sites", "protonate", "protonation_sites",
-           "cation_class", "verdict", "Verdict", "structurally_flagged", "reference_substrate", "equilibrium_factor", "skeleton_cation_smiles", "TERT_BUTYL"]
+__all__ = ["IonizationSite", "heterolysis_sites", "hydride_sites", "protonate", "protonation_sites", "carbonyl_protonation_sites", "CARBONYL_ACID_GROUPS",
+           "cation_class", "verdict", "Verdict", "structurally_flagged", "reference_substrate", "equilibrium_factor", "comparison", "skeleton_cation_smiles", "TERT_BUTYL"]

@@ -90,7 +90,7 @@ def _heterolysis_prepared(site: IonizationSite, base: dict, settings: Settings,
         ddg = energy.dG_kcal_mol - ref_energy.dG_kcal_mol
         ddg_tbu = energy.dG_kcal_mol - tbu_energy.dG_kcal_mol
         judged = verdict(site.cation_class, ddG_ion_kcal_mol=ddg_tbu, dG_ion_kcal_mol=energy.dG_kcal_mol,
-                         solution=settings.solvent is not None)
+                         solution=settings.solvent is not None, temperature_k=settings.temperature_k)
         record = dict(base)
         record.update({
             "dE_ion_kcal_mol": round(energy.dE_kcal_mol, 2),
@@ -118,7 +118,7 @@ def _hydride_prepared(site: IonizationSite, base: dict, settings: Settings) -> P
     """HIA of the cation formed by hydride abstraction at one site (anchor: tert-butyl)."""
     anchor = hia_reference("tert-butyl")
     base = {**base, **_site_fields(site), "reference": anchor.name, "reference_hia_kcal_mol": anchor.hia_kcal_mol,
-            "reference_source": anchor.source}
+            "reference_source": anchor.source, "reference_status": anchor.status}
     ref_cation = Species(anchor.cation_smiles, 1, 1)
     needs = {"cation": Species(site.cation.smiles, 1, 1), "adduct": hydride_adduct(site.cation),
              "reference_cation": ref_cation, "reference_adduct": Species(anchor.adduct_smiles, 0, 1)}
@@ -127,7 +127,7 @@ def _hydride_prepared(site: IonizationSite, base: dict, settings: Settings) -> P
         hia = hydride_ion_affinity(res["cation"], res["adduct"], res["reference_cation"], res["reference_adduct"],
                                    anchor)
         d_hia = hia.hia_kcal_mol - anchor.hia_kcal_mol
-        judged = verdict(site.cation_class, dHIA_kcal_mol=d_hia)
+        judged = verdict(site.cation_class, dHIA_kcal_mol=d_hia, temperature_k=settings.temperature_k)
         record = dict(base)
         record.update({
             "hia_kcal_mol": round(hia.hia_kcal_mol, 2),
@@ -266,6 +266,7 @@ def collate(task: str, records: list[dict], settings: Settings) -> list[dict]:
             r["spearman_rho_vs_solvolysis"] = round(rho, 3) if rho is not None else None
             r["solvolysis_n"] = len(common)
             r["solvolysis_source"] = source
+            r["solvolysis_status"] = first_row["status"] if first_row else None
             r["ladder_note"] = LADDER_NOTE
     return ok + failed
 
@@ -307,11 +308,42 @@ def attach_shifts(records: list[dict], known: dict, settings: Settings, *, worke
             continue
         r["shifts"] = [s for s in screen["shifts"] if s["flagged"]]
         r["sink_smiles"] = screen.get("sink_smiles")
+        r["degenerate_shifts"] = screen.get("degenerate_shifts", [])
         r["shift_summary"] = "; ".join(
             f"{s['kind']} → {s['product_smiles']}"
-            + (f" (relaxes to {s['relaxed_to']})" if s.get("relaxed_to") else "") + f" {s['dG_kcal_mol']:+.1f}"
+            + (f" (not a minimum: relaxes to {s['relaxed_to']})" if s.get("relaxed_to") else "")
+            + f" ΔG {s['dG_kcal_mol']:+.1f}; {s.get('barrier_status', 'barrier not computed')}"
             for s in r["shifts"])
+        r["rearrangement"] = rearrangement_text(r)
     return records
+
+
+def rearrangement_text(record: dict) -> str:
+    """Does the cation rearrange: the downhill shift (sink, ΔG, what is known of the barrier) and degenerate shifts.
+
+    >>> rearrangement_text({"shifts": [{"kind": "alkyl", "product_smiles": "[CH2+]C(C)C", "relaxed_to": "C[C+](C)C",
+    ...     "dG_kcal_mol": -16.0, "barrier_kcal_mol": None, "product_is_minimum": False}],
+    ...     "degenerate_shifts": ["hydride (H) C2→C1"]})
+    '→ C[C+](C)C via [CH2+]C(C)C, ΔG −16.0 kcal/mol, barrier unknown (intermediate not a minimum); degenerate: hydride (H) C2→C1'
+    """
+    from .shifts import barrier_status
+
+    parts = []
+    shifts = record.get("shifts") or []
+    if shifts:
+        best = min(shifts, key=lambda s: s["dG_kcal_mol"])
+        end = best.get("relaxed_to") if best.get("relaxed_to") not in (None, "bridged") else best["product_smiles"]
+        via = f" via {best['product_smiles']}" if end != best["product_smiles"] else ""
+        status = best.get("barrier_status") or barrier_status(best)
+        if best.get("product_is_minimum") is False and best.get("barrier_kcal_mol") is None:
+            status = "barrier unknown (intermediate not a minimum)"
+        parts.append(f"→ {end}{via}, ΔG {best['dG_kcal_mol']:+.1f} kcal/mol, {status}".replace("ΔG +", "ΔG +")
+                     .replace("ΔG -", "ΔG −"))
+    elif record.get("shifts") is not None:
+        parts.append("no downhill 1,2-shift")
+    if record.get("degenerate_shifts"):
+        parts.append("degenerate: " + ", ".join(record["degenerate_shifts"]))
+    return "; ".join(parts)
 
 
 def _rank_key(key: str):
@@ -325,5 +357,5 @@ def _merge_errors(failed: list[dict]) -> dict:
     return first
 
 
-__all__ = ["prepare_ionize", "prepare_sites", "prepare_ladder", "collate", "attach_shifts", "solvolysis_rates", "spearman_rho",
+__all__ = ["prepare_ionize", "prepare_sites", "prepare_ladder", "collate", "attach_shifts", "rearrangement_text", "solvolysis_rates", "spearman_rho",
            "SOLVATION_NOTE", "EQUILIBRIUM_NOTE", "LADDER_NOTE"]

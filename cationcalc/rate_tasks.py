@@ -190,6 +190,7 @@ def lifetime_fields(est: ElectrofugeEstimate, m: Medium) -> dict:
     text = human_time(lifetime) if lifetime >= VIBRATION_S else "< 0.1 ps (no intermediate)"
     return {"lg_k_capture": round(lg, 2), "k_capture_per_s": float(f"{k:.3g}"), "lifetime_s": float(f"{lifetime:.3g}"),
             "lifetime_text": text, "N1": float(row["N1"]), "s_N": float(row["s_N"]),
+            "capture_temperature_k": MAYR_PATZ_TEMPERATURE_K,
             "nucleophilicity_source": f"{row['source']} [{row['status']}]", "E": round(est.E, 2),
             "E_computed": round(est.E_computed, 2), "E_source": est.E_source,
             "free_cation": k < FREE_CATION_CAPTURE_LIMIT_PER_S}

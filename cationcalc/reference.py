@@ -3,7 +3,9 @@
 The tables in ``cationcalc/data/`` are copies of compiled literature values
 (gas-phase hydride-ion affinities, heterolysis enthalpies, rearrangement
 energies, σ⁺ constants, Mayr E, pKR⁺, JANAF entropies), each row carrying a
-``source`` and a ``status`` (read, derived, or from memory).  The hydride
+``source`` (a citation: authors, journal, year, volume, page) and a
+``status`` (read, derived, or recalled), with how each was checked in
+``verification``.  The hydride
 affinities of reference cations anchor the isodesmic hydride exchange.
 
 Example

@@ -64,6 +64,7 @@ LADDER_QUANTITIES = {
     "heterolysis": ("dG_het_kcal_mol", "ΔG of heterolysis R–X → R⁺ + X⁻", "higher ΔG: harder to ionize"),
 }
 
+#: the full-data table of a task (behind 'all numbers' in the report)
 TABLE_COLUMNS = {
     "hia": ["hia_kcal_mol", "hia_kJ_mol", "hia_G_kcal_mol", "cation_smiles", "rearranged"],
     "heterolysis": ["leaving_group", "dE_het_kcal_mol", "dH_het_kcal_mol", "dG_het_kcal_mol", "dG_het_kJ_mol",
@@ -440,28 +441,87 @@ def heavy_atom_charges(result: SpeciesResult) -> list[float]:
     return out
 
 
-CHARGE_SCALE = 0.5  #: |q| (e) that gets the full colour in depictions
+#: |q| (e) that gets the full colour in charge drawings (project choice): own charges of carbenium centres
+#: at GFN2-xTB are small (measured, gas: tert-butyl +0.15, 2-propyl +0.10, benzyl ipso +0.06 and para
+#: +0.04 against meta 0.00 e; the methyl carbons of tert-butyl −0.15), so 0.2 e saturates the colour
+CHARGE_SCALE = 0.2
+
+#: this project's charge palette: teal for negative, white at zero, amber for positive
+CHARGE_COLOURS = ("#13706b", "#ffffff", "#d97a00")
+
+
+def _charge_map():
+    from matplotlib.colors import LinearSegmentedColormap
+
+    return LinearSegmentedColormap.from_list("cationcalc-charge", list(CHARGE_COLOURS))
 
 
 def _charge_colour(q: float) -> tuple[float, float, float]:
-    import matplotlib
-
     t = max(-1.0, min(1.0, q / CHARGE_SCALE))
-    r, g, b, _ = matplotlib.colormaps["RdBu"](0.5 + 0.5 * t)  # negative red, positive blue
+    r, g, b, _ = _charge_map()(0.5 + 0.5 * t)
     return (float(r), float(g), float(b))
 
 
+def drawn_structure(result: SpeciesResult):
+    """(heavy-atom molecule to draw, True when it is the relaxed structure), atom order of the result.
+
+    A species that relaxed to other bonds is drawn as it relaxed: connectivity from the optimised
+    geometry (single bonds, hydrogens counted on the atom they ended on, + on the unsaturated carbon
+    with the largest own charge), so a hydride that moved is drawn where it went.
+    """
+    from rdkit import Chem
+
+    from .bonding import bonds_from_geometry
+
+    mol = Chem.MolFromSmiles(result.smiles)
+    if mol is None:
+        return None, False
+    if not result.rearranged:
+        return mol, False
+    numbers = list(result.numbers)
+    heavy = [i for i, z in enumerate(numbers) if z != 1]
+    if heavy != list(range(len(heavy))) or len(result.partial_charges) != len(numbers):
+        return mol, False
+    rw = Chem.RWMol()
+    for i in heavy:
+        atom = Chem.Atom(int(numbers[i]))
+        atom.SetNoImplicit(True)
+        rw.AddAtom(atom)
+    hydrogens = [0] * len(heavy)
+    neighbours = [0] * len(heavy)
+    for a, b in bonds_from_geometry(numbers, result.positions_angstrom):
+        if a < len(heavy) and b < len(heavy):
+            rw.AddBond(int(a), int(b), Chem.BondType.SINGLE)
+            neighbours[a] += 1
+            neighbours[b] += 1
+        elif min(a, b) < len(heavy):
+            hydrogens[min(a, b)] += 1
+    for i, n in enumerate(hydrogens):
+        rw.GetAtomWithIdx(i).SetNumExplicitHs(n)
+    open_carbons = [i for i in heavy if numbers[i] == 6 and neighbours[i] + hydrogens[i] < 4]
+    if open_carbons and result.charge > 0:
+        centre = max(open_carbons, key=lambda i: result.partial_charges[i])
+        rw.GetAtomWithIdx(centre).SetFormalCharge(1)
+    out = rw.GetMol()
+    out.UpdatePropertyCache(strict=False)
+    return out, True
+
+
 def depiction_png(result: SpeciesResult, size: tuple[int, int] = (320, 240)) -> bytes | None:
-    """2-D drawing with each heavy atom shaded by its charge (hydrogens summed in) and labelled."""
+    """2-D drawing with each heavy atom shaded and labelled by its own GFN2-xTB partial charge.
+
+    The relaxed structure is drawn when the species relaxed to other bonds (:func:`drawn_structure`).
+    """
     from rdkit import Chem
     from rdkit.Chem.Draw import rdMolDraw2D
 
     if not hasattr(rdMolDraw2D, "MolDraw2DCairo"):
         return None
-    mol = Chem.MolFromSmiles(result.smiles)
-    if mol is None or len(result.partial_charges) != Chem.AddHs(mol).GetNumAtoms():
+    parsed = Chem.MolFromSmiles(result.smiles)
+    if parsed is None or len(result.partial_charges) != Chem.AddHs(parsed).GetNumAtoms():
         return None
-    charges = heavy_atom_charges(result)
+    mol, _ = drawn_structure(result)
+    charges = list(result.partial_charges[:mol.GetNumAtoms()])  # each heavy atom's own charge
     for atom, q in zip(mol.GetAtoms(), charges):
         atom.SetProp("atomNote", f"{q:+.2f}")
     drawer = rdMolDraw2D.MolDraw2DCairo(*size)
@@ -486,8 +546,8 @@ def colour_scale_png() -> bytes:
 
     fig, ax = plt.subplots(figsize=(4.6, 1.0))
     fig.subplots_adjust(left=0.05, right=0.95, top=0.92, bottom=0.55)
-    fig.colorbar(matplotlib.cm.ScalarMappable(norm=Normalize(-CHARGE_SCALE, CHARGE_SCALE), cmap="RdBu"), cax=ax,
-                 orientation="horizontal", label="partial charge (e), H summed onto its heavy atom")
+    fig.colorbar(matplotlib.cm.ScalarMappable(norm=Normalize(-CHARGE_SCALE, CHARGE_SCALE), cmap=_charge_map()),
+                 cax=ax, orientation="horizontal", label="own partial charge of the atom (e)")
     return _png(fig)
 
 
@@ -500,6 +560,10 @@ body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;margin:2em auto;m
  padding:0 1em}
 h1{margin-bottom:.2em} h2{margin-top:1.6em;border-bottom:1px solid #ccc}
 table{border-collapse:collapse;font-size:.88em;margin:.5em 0}
+div.wrap{max-width:100%;overflow-x:auto} table.results{width:100%}
+table.results td{overflow-wrap:normal;vertical-align:top} td.smiles code{white-space:nowrap}
+td.verdict{min-width:14em} td.verdict small{color:#555}
+td.tier-leading{background:#d97a00;color:#fff} td.tier-competing{background:#f3c98b} td.tier-minor{color:#777}
 th,td{border:1px solid #ccc;padding:3px 7px;text-align:left}
 th{background:#f2f2f2} td.num{text-align:right;font-variant-numeric:tabular-nums}
 .caution{background:#fff4e5;border-left:4px solid #e69500;padding:.6em 1em}
@@ -540,6 +604,66 @@ def _task_columns(task: str, rows: list[dict]) -> list[str]:
                     and k not in cols and not k.startswith("reference"):
                 cols.append(k)
     return cols[:10]
+
+
+def _centre_text(result: SpeciesResult) -> str:
+    """The most positive carbon's own charge and its CHn group charge, labelled."""
+    mol, _ = drawn_structure(result)
+    if mol is None or result.charge <= 0:
+        return ""
+    own = list(result.partial_charges[:mol.GetNumAtoms()])
+    carbons = [a.GetIdx() for a in mol.GetAtoms() if a.GetAtomicNum() == 6]
+    if not carbons:
+        return ""
+    centre = max(carbons, key=lambda i: own[i])
+    group = own[centre]
+    from .bonding import bonds_from_geometry
+
+    for a, b in bonds_from_geometry(result.numbers, result.positions_angstrom):
+        if centre in (a, b) and result.numbers[a + b - centre] == 1:
+            group += result.partial_charges[a + b - centre]
+    return f"most positive carbon C{centre}: own charge {own[centre]:+.2f} e, CH group charge {group:+.2f} e"
+
+
+TASK_TITLES = {"hia": "hydride-ion affinity", "heterolysis": "heterolysis R–X → R⁺ + X⁻",
+               "thermo": "thermochemistry", "ionize": "will it ionize? R–X → R⁺ + X",
+               "sites": "where does it ionize? (sites ranked)", "ladder": "which leaving group? (ladder)",
+               "shifts": "does the cation rearrange?", "rate": "how fast does it ionize? (rate, half-life)"}
+
+
+def task_table_html(task: str, rows: list[dict]) -> str:
+    """One task's rows as an HTML table of its reading view, plus solvent, verdict reason and a short note."""
+    from .columns import VERDICT, cell, note, view
+
+    esc = html.escape
+    columns = view(task, rows)
+    head = "".join(f"<th>{esc(c.header)}</th>" for c in columns)
+    out = [f'<div class="wrap"><table class="results"><thead><tr>{head}<th>solvent</th><th>note</th></tr>'
+           "</thead><tbody>"]
+    for r in rows:
+        cells = []
+        for c in columns:
+            text = cell(c, r, shorten=False)
+            if c is VERDICT and text:
+                reason = r.get("verdict_reason") or ""
+                cells.append(f'<td class="verdict"><b>{esc(text)}</b><br><small>{esc(reason)}</small></td>')
+            elif c.key == "tier" and text:
+                cells.append(f'<td class="tier tier-{esc(text)}">{esc(text)}</td>')
+            elif c.kind == "smiles":
+                cells.append(f'<td class="smiles"><code>{esc(text)}</code></td>')
+            elif c.kind in ("value", "int", "factor"):
+                cells.append(f'<td class="num">{esc(text)}</td>')
+            else:
+                cells.append(f"<td>{esc(text)}</td>")
+        flag = note(r)
+        if r.get("error"):
+            flag = f'<span class="error">error: {esc(str(r["error"]))}</span>' + (
+                "; " + esc(flag.replace("error", "", 1).strip("; ")) if flag.strip() != "error" else "")
+        else:
+            flag = esc(flag)
+        out.append("<tr>" + "".join(cells) + f"<td>{esc(_solvent(r))}</td><td>{flag}</td></tr>")
+    out.append("</tbody></table></div>")
+    return "".join(out)
 
 
 def report_html(plan, records: list[dict], results: list[SpeciesResult], prov: dict) -> bytes:
@@ -587,27 +711,29 @@ def report_html(plan, records: list[dict], results: list[SpeciesResult], prov: d
                 f"{esc(_label(r))} in {esc(str(r.get('medium')))}: {esc(str(r.get('applicability')))}"
                 for r in outside) + "</p>")
 
-    # tables
-    parts.append("<h2>Results</h2>")
+    # tables: the task's reading view (cationcalc/columns.py); every key is in results.csv/json
+    parts.append("<h2>Results</h2><p>One row per substrate × solvent with the answer a chemist reads first; "
+                 "± is the error bar of each number (for ΔΔG_ion and differences between sites, the error of "
+                 "the difference: see <code>*_uncertainty_basis</code> in results.json). Every other key is in "
+                 "results.csv and results.json.</p>")
     for task in plan.tasks:
         rows = [r for r in records if r.get("task") == task.name]
         if not rows:
             continue
+        parts.append(f"<h3>{esc(TASK_TITLES.get(task.name, task.name))} ({esc(task.name)})</h3>")
+        if task.name == "sites":
+            parts.append("<p>Site tiers (this project's): <b>leading</b> when the gap to the best site is within "
+                         "the error of that gap or within 1.4 kcal/mol (a factor 10 in K at 298 K), "
+                         "<b>competing</b> within 4.1 kcal/mol (a factor 1000), <b>minor</b> beyond.</p>")
+        parts.append(task_table_html(task.name, rows))
         cols = _task_columns(task.name, rows)
-        parts.append(f"<h3>{esc(task.name)}</h3><table><thead><tr><th>name</th><th>input</th><th>solvent</th>"
-                     + "".join(f"<th>{esc(c)}</th>" for c in cols) + "<th>notes</th></tr></thead><tbody>")
+        parts.append("<details><summary>all numbers of this table (record keys as in results.csv)</summary>"
+                     '<div class="wrap"><table class="full"><thead><tr><th>name</th><th>input</th><th>solvent</th>'
+                     + "".join(f"<th>{esc(c)}</th>" for c in cols) + "</tr></thead><tbody>")
         for r in rows:
-            notes = []
-            if r.get("error"):
-                notes.append(f'<span class="error">error: {esc(str(r["error"]))}</span>')
-            if r.get("rearranged"):
-                relaxed = r.get("relaxed_cation_smiles") or r.get("relaxed_smiles") or "another structure"
-                notes.append(f"relaxed to {esc(str(relaxed))}")
-            if r.get("warnings"):
-                notes.append(f"{len(r['warnings'])} warning{'s' if len(r['warnings']) > 1 else ''}")
             parts.append("<tr>" + _cell(r.get("name")) + _cell(r.get("input")) + _cell(_solvent(r))
-                         + "".join(_cell(r.get(c)) for c in cols) + f"<td>{'; '.join(notes)}</td></tr>")
-        parts.append("</tbody></table>")
+                         + "".join(_cell(r.get(c)) for c in cols) + "</tr>")
+        parts.append("</tbody></table></div></details>")
 
     # cations shaded by charge
     by_key = {(r.smiles, r.solvent): r for r in results}
@@ -624,15 +750,22 @@ def report_html(plan, records: list[dict], results: list[SpeciesResult], prov: d
         if png is None:
             continue
         result = by_key[(smi, solvent)]
-        extra = (f"; not a minimum as drawn, relaxed to {esc(result.relaxed_smiles or '')} (bonds drawn as input, "
-                 "charges of the relaxed structure)" if result.rearranged else "")
+        _, relaxed = drawn_structure(result)
+        extra = (f"; not a minimum as asked: drawn as it relaxed ({esc(result.relaxed_smiles or 'bridged')})"
+                 if relaxed else "")
+        centre = _centre_text(result)
+        if centre:
+            extra += f"; {esc(centre)}"
         pictures.append(f"<figure>{_img(png, f'{label} partial charges')}<figcaption><b>{esc(label)}</b> "
                         f"<code>{esc(smi)}</code>, {esc(result.level)}{extra}</figcaption></figure>")
     if pictures:
-        parts.append("<h2>Charge delocalization</h2><p>GFN2-xTB partial charges (e) of each optimised cation; the "
-                     "charges of hydrogens are summed onto the heavy atom they are bound to, so the numbers are "
-                     "the charge of each CH<sub>n</sub> group. Blue: positive, red: negative. A charge spread over "
-                     f"several atoms shows delocalization.</p>{_img(colour_scale_png(), 'colour scale')}")
+        parts.append("<h2>Charge delocalization</h2><p>GFN2-xTB partial charges (e) of each optimised cation, "
+                     "drawn on the structure as optimised (a cation that relaxed to other bonds is drawn as it "
+                     "relaxed). Each number is the atom's <b>own</b> charge: hydrogen charges are not summed onto "
+                     "the heavy atom they are bound to (the caption gives the CH<sub>n</sub> group charge of the "
+                     "cationic centre). Colours are this project's: amber for positive, teal for negative, full "
+                     f"colour at |q| ≥ {CHARGE_SCALE} e. A charge spread over several atoms shows "
+                     f"delocalization.</p>{_img(colour_scale_png(), 'colour scale')}")
         parts.append('<div class="grid">' + "".join(pictures) + "</div>")
 
     # warnings
@@ -699,5 +832,5 @@ def read_results(path: str | os.PathLike) -> dict:
     return json.loads(Path(path).read_text(encoding="utf-8"))
 
 
-__all__ = ["write_outputs", "ladder_png", "depiction_png", "heavy_atom_charges", "report_html", "provenance",
+__all__ = ["write_outputs", "ladder_png", "depiction_png", "heavy_atom_charges", "report_html", "provenance", "drawn_structure", "task_table_html",
            "library_versions", "read_results", "write_atomic"]

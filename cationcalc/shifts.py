@@ -553,6 +553,21 @@ def classify_relaxation(cation_smiles: str, result: SpeciesResult,
     return f"not a minimum: {result.bonding_change}"
 
 
+def barrier_status(entry: dict) -> str:
+    """What is known about the barrier of one shift, in words.
+
+    >>> barrier_status({"barrier_kcal_mol": None, "product_is_minimum": False, "degenerate": False})
+    'barrier unknown: the product is not a minimum (--barriers computes it)'
+    """
+    if entry.get("barrier") and entry["barrier"].get("barrierless"):
+        return "no barrier (NEB)"
+    if entry.get("barrier_kcal_mol") is not None:
+        return f"ΔE‡ {entry['barrier_kcal_mol']:.1f} kcal/mol (NEB)"
+    if entry.get("product_is_minimum") is False:
+        return "barrier unknown: the product is not a minimum (--barriers computes it)"
+    return "barrier not computed (--barriers)"
+
+
 def _path_text(path: list[dict]) -> str:
     if not path:
         return ""
@@ -612,6 +627,11 @@ def _build_record(search: ShiftSearch, base: dict, threshold: float) -> dict:
                 "dG_kcal_mol": round(_rel(a, b)["dG_kcal_mol"], 2), "barrierless": e.relaxation,
                 "to_is_minimum": search.nodes[e.target].minimum}
         path.append(step)
+    # a step that lands on a structure that is not a minimum has no known top: the G stored for that
+    # structure is the one it relaxed to, so the path's highest point is then unknown, not 0
+    through = [step["to_smiles"] for step in path if not step["barrierless"] and not step["to_is_minimum"]]
+    for entry in shifts:
+        entry["barrier_status"] = barrier_status(entry)
     sink = search.sink()
     sink_rel = _rel(pres, search.nodes[sink].result) if sink else None
     relaxation = classify_relaxation(search.parent, pres, candidates)
@@ -645,7 +665,12 @@ def _build_record(search: ShiftSearch, base: dict, threshold: float) -> dict:
         **({f"sink_{k}": round(v, 2) for k, v in sink_rel.items()} if sink_rel else {}),
         "path": path,
         "path_text": _path_text(path),
-        "path_highest_kcal_mol": None if high is None else round(max(high, 0.0), 2),
+        "path_highest_kcal_mol": None if high is None or through else round(max(high, 0.0), 2),
+        "path_barrier_note": (f"barrier unknown: the path passes {', '.join(through)}, which is not a minimum at "
+                              f"{pres.level} (its G is that of the structure it relaxes to); --barriers computes "
+                              "an NEB barrier" if through else ""),
+        "degenerate_shifts": [f"{s['kind']} ({s['group']}) C{s['from_atom']}→C{s['to_atom']}" for s in shifts
+                              if s["degenerate"]],
         "search": {"depth": search.depth, "ceiling_kcal_mol": search.ceiling, "max_species": search.max_species,
                    "species_computed": sum(1 for n in search.nodes.values() if n.result is not None),
                    "truncated": search.truncated},
@@ -748,6 +773,7 @@ def _add_barriers(record: dict, search: ShiftSearch, settings: Settings, options
         result = shift_barrier(parent, cand, settings, accept_smiles=accept, **options)
         entry["barrier_kcal_mol"] = None if result.barrier_kcal_mol is None else round(result.barrier_kcal_mol, 2)
         entry["barrier"] = result.as_dict()
+        entry["barrier_status"] = barrier_status(entry)
         total += result.runtime_s
     record.setdefault("profile", {})["barriers_s"] = round(total, 2)
 

@@ -848,6 +848,18 @@ def _label(solvent: str | None) -> str:
     return solvent or "gas"
 
 
+def planned_species_count(plan: Plan) -> int:
+    """How many distinct species the plan lists before running (what the dry run calls distinct species)."""
+    keys: set = set()
+    for solvent in plan.solvents:
+        settings = plan.settings[solvent]
+        for task in plan.tasks:
+            found = known_needs(task, settings, plan.force)
+            if found is not None:
+                keys |= {species_key(sp.smiles, sp.charge, sp.multiplicity, settings) for sp in found[0]}
+    return len(keys)
+
+
 def describe_plan(plan: Plan) -> str:
     """The expanded plan as text: species × tasks × solvents, with counts and what the store holds."""
     from .store import ResultStore
@@ -907,7 +919,10 @@ def describe_plan(plan: Plan) -> str:
     lines.append("")
     lines.append(f"  distinct species: {len(total_needed)}, {stored_total} already in the store, "
                  f"{len(total_needed) - stored_total} to compute"
-                 + ("; tasks marked (task) find their own species at run time" if unknown else ""))
+                 + ("; tasks marked (task) find their own species at run time" if unknown else "")
+                 + ("; 1,2-shift products of the cations formed are found during the run and come on top"
+                    if any(t.name in ("ionize", "sites") and t.options.get("shifts", True) for t in plan.tasks)
+                    else ""))
     lines.extend(rejected_notes[:20])
     if len(rejected_notes) > 20:
         lines.append(f"  ... and {len(rejected_notes) - 20} more rejected inputs")
@@ -1140,33 +1155,47 @@ def _error(message: str) -> int:
 
 
 def _print_summary(records: list[dict]) -> None:
-    """One small table per task with a headline quantity: name × solvent, sorted by the first solvent."""
+    """One small table per task with its headline quantity (± error, and the verdict where there is one):
+    name × solvent, sorted by the first solvent.  Headers come from the task's reading view."""
     from rich.console import Console
+    from rich.markup import escape
     from rich.table import Table
 
-    from .report import LADDER_QUANTITIES, _label
+    from .columns import VIEWS, Column, cell
+    from .report import LADDER_QUANTITIES, TASK_TITLES, _label
 
     console = Console(width=max(100, Console().width))
     for task in dict.fromkeys(r.get("task") for r in records):
         if task not in LADDER_QUANTITIES:
             continue
         key = LADDER_QUANTITIES[task][0]
+        column = next((c for c in VIEWS.get(task, ()) if c.key == key), None) or Column(key, key, "value")
         rows = [r for r in records if r.get("task") == task and r.get(key) is not None]
         if not rows:
             continue
         solvents = list(dict.fromkeys(r.get("solvent", "none") for r in rows))
-        table = Table(title=f"{task}: {key}", title_justify="left")
+        verdicts = any(r.get("verdict") for r in rows)
+        table = Table(title=f"{TASK_TITLES.get(task, task)}: {column.header}" + (", verdict" if verdicts else ""),
+                      title_justify="left")
         table.add_column("name")
         for s in solvents:
             table.add_column("gas" if s == "none" else s, justify="right")
         by_name: dict[str, dict] = {}
         for r in rows:
-            by_name.setdefault(_label(r), {})[r.get("solvent", "none")] = r[key]
+            by_name.setdefault(_label(r), {})[r.get("solvent", "none")] = r
         first = solvents[0]
-        order = sorted(by_name, key=lambda n: (by_name[n].get(first) is None, by_name[n].get(first) or 0))
-        for name in order:
-            table.add_row(name, *[("" if by_name[name].get(s) is None else f"{by_name[name][s]:.1f}")
-                                  for s in solvents])
+
+        def order_key(n):
+            r = by_name[n].get(first)
+            return (r is None, r[key] if r else 0)
+
+        for name in sorted(by_name, key=order_key):
+            cells = []
+            for s in solvents:
+                r = by_name[name].get(s)
+                text = "" if r is None else cell(column, r) + (f" · {r['verdict']}" if r.get("verdict") else "")
+                cells.append(escape(text))
+            table.add_row(escape(name), *cells)
         console.print(table)
 
 
@@ -1203,6 +1232,11 @@ def main(argv: list[str] | None = None) -> int:
         return 143 if stop_signal() == "SIGTERM" else 130
     species_line = (f"species: {outcome.computed} computed, {outcome.failed} failed, {outcome.reused} read from "
                     f"the store; {outcome.elapsed_s:.1f} s")
+    planned = planned_species_count(plan)
+    extra = outcome.computed + outcome.failed + outcome.reused - planned
+    if extra > 0:
+        species_line += (f" (the plan listed {planned}; the other {extra} were found during the run: 1,2-shift "
+                         "products of the cations formed, and species of tasks that search for their own)")
     if outcome.interrupted:
         why = "stopped by SIGTERM" if stop_signal() == "SIGTERM" else "interrupted"
         print(f"\ncationcalc run: {why} ({species_line}); finished species are in {plan.store_path}; run "

@@ -40,7 +40,7 @@ class BatchInterrupted(Exception):
 def prepare_hia(text: str, name: str, settings: Settings, reference: HIAReference, force: bool = False) -> Prepared:
     base = _base(text, name, settings)
     base.update({"reference": reference.name, "reference_hia_kcal_mol": reference.hia_kcal_mol,
-                 "reference_source": reference.source})
+                 "reference_source": reference.source, "reference_status": reference.status})
     try:
         cation = carbocation(text, force=force)
     except InputError as exc:

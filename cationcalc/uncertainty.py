@@ -115,11 +115,45 @@ def _absolute(cal: Calibration, group: str | None, kind: str) -> float:
     return math.sqrt(var + mean * mean)
 
 
+def _residuals(cal: Calibration, group: str | None, kind: str):
+    """The group's residuals (its own when it has enough reference cations, else the whole set's) and its name."""
+    from .calibration import MIN_GROUP_N
+
+    e = cal.group_residuals(group, kind) if group else None
+    if e is None or e.size < MIN_GROUP_N:
+        return cal.group_residuals(None, kind), "whole set"
+    return e, group
+
+
+def pair_difference_rms(cal: Calibration, group_a: str | None, group_b: str | None,
+                        kind: str = "raw") -> tuple[float, int, str]:
+    """RMS of e_i − e_j over every pair of reference residuals (i from group A, j from group B).
+
+    The error of a computed difference between a cation of group A and one of
+    group B: a bias shared by the two groups cancels.  Every ordered pair is
+    counted (a residual with itself too), the plug-in estimate that matches the
+    population variance behind the absolute error bars; it equals
+    √(var_A + var_B + (mean_A − mean_B)²), and √2·σ within one group.
+    Returns (RMS, number of pairs, groups used).
+    """
+    a, name_a = _residuals(cal, group_a, kind)
+    b, name_b = _residuals(cal, group_b, kind)
+    diffs = [x - y for x in a for y in b]
+    label = f"{name_a} pairs" if name_a == name_b else f"{name_a} × {name_b} pairs"
+    if not diffs:
+        return 0.0, 0, label
+    return math.sqrt(sum(d * d for d in diffs) / len(diffs)), len(diffs), label
+
+
 def _relative(cal: Calibration, group_a: str | None, group_b: str | None, kind: str = "raw") -> float:
-    """RMS error of a difference between a cation of group A and one of group B."""
-    mean_a, var_a, _, _ = cal.error_model(group_a, kind)
-    mean_b, var_b, _, _ = cal.error_model(group_b, kind)
-    return math.sqrt(var_a + var_b + (mean_a - mean_b) ** 2)
+    """RMS error of a difference between a cation of group A and one of group B (from residual pairs)."""
+    return pair_difference_rms(cal, group_a, group_b, kind)[0]
+
+
+def _difference_basis(cal: Calibration, group_a: str | None, group_b: str | None, kind: str) -> str:
+    rms, n, label = pair_difference_rms(cal, group_a, group_b, kind)
+    return (f"RMS of the difference of residuals over {n} {label} of reference cations "
+            f"(calibration_residuals.csv, {cal.id}); a bias shared by the two cations cancels")
 
 
 def _reference_cation(record: dict) -> str | None:
@@ -208,8 +242,18 @@ def annotate(task: str, records: list[dict], settings, calibrated: bool = False)
             else:
                 u = _relative(cal, group, _group_of({"cation_smiles": ref}), "raw")
             r["ddG_ion_uncertainty_kcal_mol"] = _round(u)
+            r["ddG_ion_uncertainty_basis"] = (
+                "the same cation as the reference: no difference error" if u == 0.0 else
+                _difference_basis(cal, group, _group_of({"cation_smiles": ref}), "raw")
+                if ref not in (None, ANCHOR_SMILES) else
+                "against the tert-butyl cation, the exact anchor of the reference residuals: the RMS "
+                "residual of this cation's group (each residual is already a difference from tert-butyl)")
         if r.get("ddG_ion_vs_tert_butyl_kcal_mol") is not None:
             r["ddG_ion_vs_tert_butyl_uncertainty_kcal_mol"] = _round(0.0 if is_anchor else _absolute(cal, group, "raw"))
+            r["ddG_ion_vs_tert_butyl_uncertainty_basis"] = (
+                "the tert-butyl cation itself" if is_anchor else
+                "RMS residual of this cation's class group against the tert-butyl anchor (each residual is a "
+                f"difference from tert-butyl; calibration_residuals.csv, {cal.id})")
         for q in ("hia", "dG_ion"):
             key = f"{q}_vs_best_kcal_mol"
             if r.get(key) is None or task == "ladder":
@@ -218,15 +262,20 @@ def annotate(task: str, records: list[dict], settings, calibrated: bool = False)
             if calibrated and q == "hia" and did_calibrate:
                 r[f"{key[:-9]}_raw_kcal_mol"] = r[key]
                 r[key] = round(cal.a * float(r[key]), 2)
+            how = kind if q == "hia" else "raw"
             if b_cation is not None and b_cation == cation:
-                u = 0.0
+                u, basis = 0.0, "the same cation as the best site: no difference error"
             elif b_cation == ANCHOR_SMILES:
-                u = _absolute(cal, group, kind if q == "hia" else "raw")
+                u = _absolute(cal, group, how)
+                basis = "against tert-butyl, the exact anchor: the RMS error of this cation's group"
             elif cation == ANCHOR_SMILES:
-                u = _absolute(cal, b_group, kind if q == "hia" else "raw")
+                u = _absolute(cal, b_group, how)
+                basis = "against tert-butyl, the exact anchor: the RMS error of the best site's group"
             else:
-                u = _relative(cal, group, b_group, kind if q == "hia" else "raw")
+                u = _relative(cal, group, b_group, how)
+                basis = _difference_basis(cal, group, b_group, how)
             r[f"{q}_vs_best_uncertainty_kcal_mol"] = _round(u)
+            r[f"{q}_vs_best_uncertainty_basis"] = basis
         if not any(k.endswith("_uncertainty_kcal_mol") for k in r):
             if calibrated:  # e.g. thermo records: no HIA or ΔG to put a bar on or to calibrate
                 r["calibrated"] = False
@@ -256,4 +305,4 @@ def annotate(task: str, records: list[dict], settings, calibrated: bool = False)
     return records
 
 
-__all__ = ["annotate", "format_value"]
+__all__ = ["annotate", "format_value", "pair_difference_rms"]

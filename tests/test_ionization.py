@@ -48,7 +48,8 @@ def test_groups_inside_a_leaving_group_are_not_sites():
     assert ("chloride", 2) in {(s.group.name, s.carbon) for s in find_leaving_groups("COCCl")}
     # a Boc carbamate (generic carboxylate) does not hide the PMB ether elsewhere in the molecule
     sites = heterolysis_sites("COc1ccc(COC[C@@H]2CCCN2C(=O)OC(C)(C)C)cc1", acid=True)
-    assert {"carboxylate", "protonated ether"} == {s.leaving_group for s in sites}
+    # (under acid the Boc carbonyl is protonated too and the carbamic acid can leave: issue 17, point 7)
+    assert {"carboxylate", "protonated ether", "carbamic acid"} == {s.leaving_group for s in sites}
     names = sorted({s.group.name for s in find_leaving_groups("FC(F)(F)c1ccc(CCl)cc1")})
     assert names == ["chloride", "fluoride"]
 
@@ -233,3 +234,104 @@ def test_ionize_reports_the_downhill_shift_of_the_cation_formed(water):
     assert by_name["neopentyl"]["sink_smiles"] == "CC[C+](C)C"
     assert by_name["neopentyl"]["shifts"][0]["kind"] == "alkyl" and by_name["neopentyl"]["shifts"][0]["dG_kcal_mol"] < -20
     assert by_name["tBu"]["shifts"] == []  # no false positive on a stable cation
+
+
+# --- acid-labile esters and carbamates (issue 17, point 7) ----------------------------------------
+
+
+def test_acid_protonates_the_carbonyl_oxygen_of_esters_and_carbamates():
+    # tert-butyl esters and Boc groups cleave in acid by carbonyl protonation and loss of the neutral
+    # acid with the tert-butyl cation (textbook AAL1 mechanism; common practice, no source)
+    for smiles, acid_smiles, group in [("CC(=O)OC(C)(C)C", "CC(=O)O", "carboxylic acid"),
+                                       ("CNC(=O)OC(C)(C)C", "CNC(=O)O", "carbamic acid")]:
+        plain = {s.leaving_group for s in heterolysis_sites(smiles)}
+        assert group not in plain
+        sites = [s for s in heterolysis_sites(smiles, acid=True) if s.leaving_group == group]
+        assert len(sites) == 1, smiles
+        site = sites[0]
+        assert site.substrate.charge == 1 and "[OH+]" in site.substrate.smiles
+        assert site.cation.smiles == "C[C+](C)C" and site.departing.smiles == acid_smiles
+        assert site.departing.charge == 0
+        assert reference_substrate(site).leaving_group == group
+
+
+@pytest.mark.parametrize("smiles", ["CC(=O)OC(C)(C)C", "CNC(=O)OC(C)(C)C"])
+def test_tert_butyl_ester_and_boc_ionize_more_easily_under_acid(water, smiles):
+    # tert-butyl acetate and tert-butyl N-methylcarbamate (a small Boc amine) lose the tert-butyl cation
+    # in acid, not in neutral water (common practice, no source): ΔG_ion must drop under --acid
+    plain = run_task("ionize", [(smiles, "")], water, shifts=False)[0]
+    acid = run_task("ionize", [(smiles, "")], water, acid=True, shifts=False)[0]
+    assert not plain.get("error") and not acid.get("error")
+    assert acid["leaving_group"] in ("carboxylic acid", "carbamic acid")
+    assert acid["dG_ion_kcal_mol"] < plain["dG_ion_kcal_mol"] - 5.0
+    assert acid["verdict"] == "SN1/E1 plausible"
+
+
+# --- a neutral reference is a minimum (issue 17, point 6) ------------------------------------------
+
+
+def test_tert_butyl_acetate_is_a_minimum_not_a_saddle_point(water):
+    # a neutral ester is a minimum (common practice, no source); the flat methyl and ester torsions
+    # once left a 60i cm-1 mode after mode following at the ordinary optimisation threshold
+    from cationcalc.pipeline import compute_species
+    from cationcalc.species import species
+
+    result = compute_species(species("CC(=O)OC(C)(C)C"), water)
+    assert result.imaginary_frequencies_cm1 == []
+    assert not any("saddle" in w for w in result.warnings)
+
+
+def test_saddle_point_warnings_speak_of_the_species_they_are_about():
+    from cationcalc.pipeline import saddle_warning
+    from cationcalc.species import Species
+
+    neutral = saddle_warning(Species("CC(=O)OC(C)(C)C", 0, 1), "60i", 3)
+    assert "cation" not in neutral and "neutral molecule" in neutral
+    assert "carbocation" in saddle_warning(Species("CC[CH2+]", 1, 1), "300i", 3)
+
+
+# --- verdict words agree with their numbers (issue 17, point 3) ------------------------------------
+
+
+def test_every_verdict_row_reads_as_its_number_says():
+    # the thresholds are project choices (ionization_verdicts.csv gives the reason for each); what is
+    # tested here is that the printed words follow the printed number on both sides of every limit
+    from cationcalc.ionization import verdict_rules
+
+    rules = verdict_rules()
+    for key, keyword in (("ddG_ion", "ddG_ion_kcal_mol"), ("dHIA", "dHIA_kcal_mol")):
+        rows = [r for r in rules if r["kind"] == "threshold" and r["key"] == key]
+        assert [float(r["limit_kcal_mol"]) for r in rows] == sorted(float(r["limit_kcal_mol"]) for r in rows)
+        lower = None
+        for row in rows:
+            upper = float(row["limit_kcal_mol"])
+            if math.isfinite(upper):
+                assert f"≤ {upper:g}" in row["meaning"], row  # the limit the words state is the limit applied
+            if lower is not None:
+                assert f"{lower:g} <" in row["meaning"] or f"> {lower:g}" in row["meaning"], row
+            assert "or more easily" not in row["meaning"] and "as stable as" not in row["meaning"], row
+            start = -6.0 if lower is None else lower + 0.1
+            stop = upper if math.isfinite(upper) else start + 25.0
+            for value in (start, (start + stop) / 2, stop):
+                judged = verdict("tertiary", **{keyword: value}, dG_ion_kcal_mol=5.0, solution=True)
+                assert judged.verdict == row["verdict"], (key, value, judged)
+                assert f"{value:+.1f} kcal/mol" in judged.reason
+                if value >= 0.5:
+                    assert "less" in judged.reason and "more easily" not in judged.reason, judged.reason
+                elif value <= -0.5:
+                    assert "more" in judged.reason and "less easily" not in judged.reason, judged.reason
+            lower = upper
+    poor = next(r for r in rules if r["key"] == "dG_ion_solution")
+    assert f"> {float(poor['limit_kcal_mol']):g}" in poor["meaning"]
+
+
+def test_verdicts_reported_in_the_issue_read_consistently():
+    # 1-phenylethyl chloride in water, ΔΔG_ion +8.4: a 1e6 smaller equilibrium constant, not "as easily or more"
+    judged = verdict("benzylic (secondary)", ddG_ion_kcal_mol=8.4, dG_ion_kcal_mol=15.0, solution=True)
+    assert judged.verdict == "SN1/E1 plausible"
+    assert "less easily" in judged.reason and "1e6" in judged.reason and "more easily" not in judged.reason
+    # a ΔΔG that prints as +10.0 is judged as +10.0 (the limit is ≤ 10), whatever the third decimal
+    for value in (9.96, 10.0, 10.04):
+        judged = verdict("secondary", ddG_ion_kcal_mol=value, dG_ion_kcal_mol=20.0, solution=True)
+        assert judged.verdict == "SN1/E1 plausible" and "+10.0" in judged.reason
+    assert verdict("secondary", ddG_ion_kcal_mol=10.06).verdict == "borderline"

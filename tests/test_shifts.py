@@ -415,3 +415,19 @@ def test_cyclobutylmethyl_ring_expansion_barrier_is_small(gas):
     ring = _entry(rec, "[CH+]1CCCC1")
     assert ring["barrier"]["endpoint_smiles"] == _canon("[CH+]1CCCC1")
     assert ring["barrier_kcal_mol"] < 2.0
+
+
+def test_2_butyl_reports_its_degenerate_hydride_shift_and_no_false_barrierless_path(gas):
+    # 2-butyl cation scrambles by a degenerate 2,3-hydride shift (observed by NMR in superacid; common
+    # practice, no source); its route to tert-butyl passes isobutyl, which is not a minimum at GFN2-xTB,
+    # so the height of that route is unknown: it must not read as barrierless or as a 0.0 highest point
+    from cationcalc.ionization_tasks import rearrangement_text
+
+    rec = _shifts("C[CH+]CC", gas, depth=2)
+    assert any(d.startswith("hydride") for d in rec["degenerate_shifts"])
+    assert rec["path_highest_kcal_mol"] is None and "barrier unknown" in rec["path_barrier_note"]
+    via_isobutyl = [s for s in rec["shifts"] if s["product_smiles"] == _canon("[CH2+]C(C)C")]
+    assert via_isobutyl and via_isobutyl[0]["product_is_minimum"] is False
+    assert "unknown" in via_isobutyl[0]["barrier_status"]
+    text = rearrangement_text({**rec, "shifts": [s for s in rec["shifts"] if s["flagged"]]})
+    assert "degenerate: hydride" in text and "barrierless" not in text and "no barrier" not in text
