@@ -180,6 +180,7 @@ def _print_view(task: str, records: list[dict]) -> None:
     from rich.table import Table
 
     from .columns import cell, note, view
+    from .species import shown
 
     console = Console(width=max(120, Console().width))
     first = records[0] if records else {}
@@ -218,7 +219,7 @@ def _print_view(task: str, records: list[dict]) -> None:
     for r in records:
         flag = note(r)
         if r.get("error"):
-            errors.append(f"{r.get('name') or r.get('input', '')}: {r['error']}")
+            errors.append(f"{r.get('name') or shown(r.get('input', ''))}: {r['error']}")
             flag = flag.replace("error", f"[red]error {len(errors)}[/red]", 1)
         table.add_row(*[escape(cell(c, r)) for c in columns], flag)
     console.print(table)

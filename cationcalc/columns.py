@@ -45,7 +45,9 @@ class Column:
 
 
 def _substrate(record: dict) -> str:
-    return record.get("name") or record.get("input") or ""
+    from .species import clipped
+
+    return record.get("name") or clipped(record.get("input") or "")
 
 
 def _short_group(name: str) -> str:
