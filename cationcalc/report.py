@@ -638,7 +638,9 @@ def task_table_html(task: str, rows: list[dict]) -> str:
     esc = html.escape
     columns = view(task, rows)
     head = "".join(f"<th>{esc(c.header)}</th>" for c in columns)
-    out = [f'<div class="wrap"><table class="results"><thead><tr>{head}<th>solvent</th><th>note</th></tr>'
+    # the rate task's medium is a column of its own; its species are computed at the E_f level, not in a solvent
+    where = "" if task == "rate" else "<th>solvent</th>"
+    out = [f'<div class="wrap"><table class="results"><thead><tr>{head}{where}<th>note</th></tr>'
            "</thead><tbody>"]
     for r in rows:
         cells = []
@@ -661,7 +663,8 @@ def task_table_html(task: str, rows: list[dict]) -> str:
                 "; " + esc(flag.replace("error", "", 1).strip("; ")) if flag.strip() != "error" else "")
         else:
             flag = esc(flag)
-        out.append("<tr>" + "".join(cells) + f"<td>{esc(_solvent(r))}</td><td>{flag}</td></tr>")
+        solvent = "" if task == "rate" else f"<td>{esc(_solvent(r))}</td>"
+        out.append("<tr>" + "".join(cells) + f"{solvent}<td>{flag}</td></tr>")
     out.append("</tbody></table></div>")
     return "".join(out)
 

@@ -831,13 +831,18 @@ def known_needs(task: PlannedTask, settings: Settings, force: bool):
     return list(dict.fromkeys(needs)), rejected
 
 
-def _rate_prefetch(task: PlannedTask, plan: Plan) -> tuple[Settings, list]:
-    """The rate task's species and the settings they are computed at (the E_f descriptor's level)."""
+def task_in_solvent(task: PlannedTask, plan: Plan, solvent: str | None) -> tuple[PlannedTask, Settings] | None:
+    """The task and the settings its species are computed at in this solvent of the plan; None where it does
+    not run.  The rate task does not depend on the study's solvents: it runs once, at the E_f descriptor's
+    level, and its species are the same for every medium."""
+    if task.name != "rate":
+        return task, plan.settings[solvent]
+    if solvent != plan.solvents[0] or not task.items:
+        return None
     from .rate_tasks import descriptor_settings
 
-    settings = descriptor_settings(plan.settings[plan.solvents[0]])
-    found = known_needs(task, settings, plan.force)
-    return settings, (found[0] if found else [])
+    first = PlannedTask(task.name, {**task.options, "medium": task.options["medium"][0]}, task.runner, task.items)
+    return first, descriptor_settings(plan.settings[solvent])
 
 
 def _row_label(task_name: str, solvent: str | None) -> str:
@@ -852,8 +857,11 @@ def planned_species_count(plan: Plan) -> int:
     """How many distinct species the plan lists before running (what the dry run calls distinct species)."""
     keys: set = set()
     for solvent in plan.solvents:
-        settings = plan.settings[solvent]
         for task in plan.tasks:
+            placed = task_in_solvent(task, plan, solvent)
+            if placed is None:
+                continue
+            task, settings = placed
             found = known_needs(task, settings, plan.force)
             if found is not None:
                 keys |= {species_key(sp.smiles, sp.charge, sp.multiplicity, settings) for sp in found[0]}
@@ -890,15 +898,10 @@ def describe_plan(plan: Plan) -> str:
     rejected_notes: list[str] = []
     for solvent in plan.solvents:
         for task in plan.tasks:
-            settings = plan.settings[solvent]
-            if task.name == "rate":  # once, at the E_f descriptor's level
-                if solvent != plan.solvents[0] or not task.items:
-                    continue
-                from .rate_tasks import descriptor_settings
-
-                settings = descriptor_settings(settings)
-                task = PlannedTask(task.name, {**task.options, "medium": task.options["medium"][0]}, task.runner,
-                                   task.items)
+            placed = task_in_solvent(task, plan, solvent)
+            if placed is None:
+                continue
+            task, settings = placed
             found = known_needs(task, settings, plan.force)
             if found is None:
                 unknown = True
@@ -1041,20 +1044,16 @@ def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> 
     store = ResultStore(plan.store_path)
     try:
         # 1. every species whose need is known, all solvents, through one pool per solvent
-        prefetch: list[tuple[Settings, list]] = []
+        prefetch: dict[str, tuple[Settings, list]] = {}  # species per settings (the rate task's at its level)
         for solvent in plan.solvents:
-            wanted: list = []
             for task in plan.tasks:
-                if task.name == "rate":
-                    continue
-                found = known_needs(task, plan.settings[solvent], plan.force)
+                placed = task_in_solvent(task, plan, solvent)
+                found = known_needs(placed[0], placed[1], plan.force) if placed else None
                 if found:
-                    wanted.extend(found[0])
-            prefetch.append((plan.settings[solvent], list(dict.fromkeys(wanted))))
-        for task in plan.tasks:  # the rate task's species are at the E_f calibration's level, whatever the solvents
-            if task.name == "rate" and task.items:
-                prefetch.append(_rate_prefetch(task, plan))
-        missing = sum(1 for settings, sps in prefetch for sp in sps
+                    wanted = prefetch.setdefault(placed[1].model_dump_json(), (placed[1], []))[1]
+                    wanted.extend(sp for sp in found[0] if sp not in wanted)
+        prefetch_list = list(prefetch.values())
+        missing = sum(1 for settings, sps in prefetch_list for sp in sps
                       if species_key(sp.smiles, sp.charge, sp.multiplicity, settings) not in store)
         bar = _Progress(missing, show_progress)
         records: list[dict] = []
@@ -1062,7 +1061,7 @@ def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> 
             with sigint_guard(), scheduler_context(plan.scheduler, plan.workers):
                 from .executors import compute_many
 
-                for settings, wanted in prefetch:
+                for settings, wanted in prefetch_list:
                     if wanted:
                         compute_many(wanted, settings, workers=plan.workers, progress=bar.callback(settings),
                                      store=store)
@@ -1166,6 +1165,9 @@ def _print_summary(records: list[dict]) -> None:
 
     console = Console(width=max(100, Console().width))
     for task in dict.fromkeys(r.get("task") for r in records):
+        if task == "rate":  # name × medium: half-life and the verdict in time
+            _print_rate_summary(console, [r for r in records if r.get("task") == "rate" and not r.get("error")])
+            continue
         if task not in LADDER_QUANTITIES:
             continue
         key = LADDER_QUANTITIES[task][0]
@@ -1197,6 +1199,43 @@ def _print_summary(records: list[dict]) -> None:
                 cells.append(escape(text))
             table.add_row(escape(name), *cells)
         console.print(table)
+
+
+def _print_rate_summary(console, rows: list[dict]) -> None:
+    from rich.markup import escape
+    from rich.table import Table
+
+    from .report import TASK_TITLES, _label
+
+    if not rows:
+        return
+    media = list(dict.fromkeys(r.get("medium") for r in rows))
+    table = Table(title=f"{TASK_TITLES['rate']}: half-life (range from the lg k uncertainty), verdict",
+                  title_justify="left")
+    table.add_column("name")
+    for m in media:
+        table.add_column(str(m), justify="right")
+    by_name: dict[str, dict] = {}
+    for r in rows:
+        by_name.setdefault(_label(r), {})[r.get("medium")] = r
+    first = media[0]
+
+    def order_key(name):
+        r = by_name[name].get(first)
+        return (r is None or r.get("half_life_s") is None, (r or {}).get("half_life_s") or 0.0)
+
+    for name in sorted(by_name, key=order_key):
+        cells = []
+        for m in media:
+            r = by_name[name].get(m)
+            if r is None:
+                cells.append("")
+            elif r.get("half_life_s") is None:
+                cells.append(escape(str(r.get("verdict") or r.get("rate_note") or "")))
+            else:
+                cells.append(escape(f"{r['half_life_text']} ({r['half_life_range_text']}) · {r['verdict']}"))
+        table.add_row(escape(name), *cells)
+    console.print(table)
 
 
 def main(argv: list[str] | None = None) -> int:
