@@ -856,16 +856,19 @@ def _label(solvent: str | None) -> str:
 def planned_species_count(plan: Plan) -> int:
     """How many distinct species the plan lists before running (what the dry run calls distinct species)."""
     keys: set = set()
+    for _, _, settings, found in planned_needs(plan):
+        if found is not None:
+            keys |= {species_key(sp.smiles, sp.charge, sp.multiplicity, settings) for sp in found[0]}
+    return len(keys)
+
+
+def planned_needs(plan: Plan):
+    """(solvent, task, settings, known_needs) for every task of the plan where it runs, in plan order."""
     for solvent in plan.solvents:
         for task in plan.tasks:
             placed = task_in_solvent(task, plan, solvent)
-            if placed is None:
-                continue
-            task, settings = placed
-            found = known_needs(task, settings, plan.force)
-            if found is not None:
-                keys |= {species_key(sp.smiles, sp.charge, sp.multiplicity, settings) for sp in found[0]}
-    return len(keys)
+            if placed is not None:
+                yield solvent, placed[0], placed[1], known_needs(placed[0], placed[1], plan.force)
 
 
 def describe_plan(plan: Plan) -> str:
@@ -896,28 +899,22 @@ def describe_plan(plan: Plan) -> str:
     total_needed: set = set()
     unknown = False
     rejected_notes: list[str] = []
-    for solvent in plan.solvents:
-        for task in plan.tasks:
-            placed = task_in_solvent(task, plan, solvent)
-            if placed is None:
-                continue
-            task, settings = placed
-            found = known_needs(task, settings, plan.force)
-            if found is None:
-                unknown = True
-                lines.append(f"  {_row_label(task.name, solvent):<16}{task.name:<13}{len(task.items):>7}{'?':>10}"
-                             f"{'(task)':>9}{'':>8}")
-                continue
-            needs, rejected = found
-            keys = {species_key(sp.smiles, sp.charge, sp.multiplicity, settings) for sp in needs}
-            total_needed |= keys
-            stored = store.count_present(keys) if store else 0
-            lines.append(f"  {_row_label(task.name, solvent):<16}{task.name:<13}{len(task.items):>7}{len(rejected):>10}"
-                         f"{len(keys):>9}{stored:>8}")
-            for name, error in rejected:
-                note = f"  rejected by {task.name}: {name}: {error}"
-                if note not in rejected_notes:
-                    rejected_notes.append(note)
+    for solvent, task, settings, found in planned_needs(plan):
+        if found is None:
+            unknown = True
+            lines.append(f"  {_row_label(task.name, solvent):<16}{task.name:<13}{len(task.items):>7}{'?':>10}"
+                         f"{'(task)':>9}{'':>8}")
+            continue
+        needs, rejected = found
+        keys = {species_key(sp.smiles, sp.charge, sp.multiplicity, settings) for sp in needs}
+        total_needed |= keys
+        stored = store.count_present(keys) if store else 0
+        lines.append(f"  {_row_label(task.name, solvent):<16}{task.name:<13}{len(task.items):>7}{len(rejected):>10}"
+                     f"{len(keys):>9}{stored:>8}")
+        for name, error in rejected:
+            note = f"  rejected by {task.name}: {name}: {error}"
+            if note not in rejected_notes:
+                rejected_notes.append(note)
     stored_total = store.count_present(total_needed) if store else 0
     lines.append("")
     lines.append(f"  distinct species: {len(total_needed)}, {stored_total} already in the store, "
@@ -1045,13 +1042,10 @@ def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> 
     try:
         # 1. every species whose need is known, all solvents, through one pool per solvent
         prefetch: dict[str, tuple[Settings, list]] = {}  # species per settings (the rate task's at its level)
-        for solvent in plan.solvents:
-            for task in plan.tasks:
-                placed = task_in_solvent(task, plan, solvent)
-                found = known_needs(placed[0], placed[1], plan.force) if placed else None
-                if found:
-                    wanted = prefetch.setdefault(placed[1].model_dump_json(), (placed[1], []))[1]
-                    wanted.extend(sp for sp in found[0] if sp not in wanted)
+        for _, _, settings, found in planned_needs(plan):
+            if found:
+                wanted = prefetch.setdefault(settings.model_dump_json(), (settings, []))[1]
+                wanted.extend(sp for sp in found[0] if sp not in wanted)
         prefetch_list = list(prefetch.values())
         missing = sum(1 for settings, sps in prefetch_list for sp in sps
                       if species_key(sp.smiles, sp.charge, sp.multiplicity, settings) not in store)
