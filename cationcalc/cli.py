@@ -202,7 +202,7 @@ def _print_view(task: str, records: list[dict]) -> None:
         narrowest = max(narrowest, *(len(line) for line in header.split("\n")))
         specs.append([column.header, narrowest, max(widest, narrowest), wrap,
                       "right" if column.kind in ("value", "int", "factor") else "left"])
-    note_width = max([len(n) for n in notes] + [4])
+    note_width = max([len(n) + (1 + len(str(len(records))) if n.startswith("error") else 0) for n in notes] + [4])
     needed = sum(spec[1] + 3 for spec in specs) + note_width + 3 + 1
     console = Console(width=max(console.width, needed))
     spare = console.width - needed

@@ -304,7 +304,7 @@ def _rate_prepared(site, base: dict, settings: Settings, m: Medium, temperature_
 def prepare_rate(text: str, name: str, settings: Settings, *, medium: Medium, temperature_k: float,
                  leaving_group: str = "auto", force: bool = False) -> list[Prepared]:
     """One request per ionization site with a nucleofugality in the medium (settings: descriptor settings)."""
-    base = {**_base(text, name, settings), "task": "rate"}
+    base = {**_base(text, name, settings), "task": "rate", "medium": medium.code, "rate_temperature_k": temperature_k}
     try:
         check_temperature(temperature_k)
         group = None if leaving_group in (None, "", "auto") else lookup_leaving_group(leaving_group)

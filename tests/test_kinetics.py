@@ -321,3 +321,38 @@ def test_rate_task_over_several_media_shares_species(gas):
     assert [r["medium"] for r in records] == ["80E20W", "E"]
     # solvolysis is faster in 80 % ethanol than in ethanol (published k 1.72e-3 vs 5.75e-5 s⁻¹, Streidl 2010)
     assert records[0]["k_ion_per_s"] > records[1]["k_ion_per_s"]
+
+
+def test_benzhydryl_rates_from_computed_E_f_within_a_factor_of_five():
+    # every benzhydryl row of the rate set (Streidl 2010 thesis Table S1 transcription) predicted from the
+    # computed E_f (the stored GFN2-xTB descriptor of the cation, leave-one-out: no cation's own published
+    # E_f enters its prediction); the kinetics requirement: MAE ≤ 0.7 log units
+    from cationcalc.electrofuges import canonical_cation, descriptor_level, descriptor_rows
+
+    stored = {canonical_cation(r["cation_smiles"]): float(r["hia_kcal_mol"]) for r in descriptor_rows()
+              if r["level"] == descriptor_level()}
+    errors = []
+    for row in load_table("solvolysis_rates"):
+        if "benzhydryl" not in row["name"]:
+            continue
+        (site,) = [x for x in heterolysis_sites(row["substrate_smiles"]) if x.cation_class.startswith("benzylic")]
+        est = estimate_electrofuge(site.cation.smiles, stored[canonical_cation(site.cation.smiles)])
+        m = medium(row["medium"])
+        fields = kinetic_fields(est, nucleofugality(site.leaving_group, m), m, row["substrate_smiles"],
+                                site.cation_class, 298.15)
+        errors.append(fields["lg_k_ion_computed"] - math.log10(float(row["k_per_s"])))
+    assert len(errors) >= 20
+    assert sum(abs(e) for e in errors) / len(errors) <= 0.7
+
+
+@pytest.mark.slow
+def test_rate_check_set_recomputed():
+    # the whole rate set recomputed from scratch (cationcalc check --sets rates): benzhydryl MAE ≤ 0.7,
+    # tert-butyl chloride within two log units, solvent-assisted controls flagged (sources in solvolysis_rates.csv)
+    from cationcalc.rate_checks import run_rate_checks
+
+    report = run_rate_checks(workers=2)
+    assert report["benzhydryl"]["n"] >= 20 and report["benzhydryl"]["mae"] <= 0.7
+    assert report["outside_flagged"] and not report["outside_lower_bound_fails"]
+    tertiary = [e for e in report["entries"] if e["name"] == "tert-butyl chloride"]
+    assert all(abs(e["error_lg"]) <= 2.0 for e in tertiary)
