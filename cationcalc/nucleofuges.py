@@ -23,7 +23,6 @@ Example
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -174,13 +173,5 @@ def describe_available() -> str:
     return f"{listing} (* published; the others estimated from Y_Cl)"
 
 
-def groups_with_data() -> tuple[str, ...]:
-    return tuple(available())
-
-
-def is_finite(value: float | None) -> bool:
-    return value is not None and math.isfinite(value)
-
-
 __all__ = ["Nucleofugality", "nucleofugality", "ionizing_power_route", "IonizingPowerRoute", "available",
-           "describe_available", "groups_with_data", "MIN_MEDIA_FOR_ESTIMATE"]
+           "describe_available", "MIN_MEDIA_FOR_ESTIMATE"]
