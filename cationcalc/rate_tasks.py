@@ -279,9 +279,7 @@ def _rate_prepared(site, base: dict, settings: Settings, m: Medium, temperature_
     except InputError as exc:
         return Prepared(base, error=str(exc))
     anchor = hia_reference("tert-butyl")
-    needs = {"cation": Species(site.cation.smiles, 1, 1), "adduct": hydride_adduct(site.cation),
-             "reference_cation": Species(anchor.cation_smiles, 1, 1),
-             "reference_adduct": Species(anchor.adduct_smiles, 0, 1)}
+    needs = _descriptor_needs(site.cation.smiles)
 
     def finish(res: dict[str, SpeciesResult]) -> dict:
         hia = hydride_ion_affinity(res["cation"], res["adduct"], res["reference_cation"], res["reference_adduct"],
@@ -328,6 +326,7 @@ def prepare_rate(text: str, name: str, settings: Settings, *, medium: Medium, te
 
 
 def _descriptor_needs(cation_smiles: str) -> dict[str, Species]:
+    """The cation, its hydride adduct and the tert-butyl pair: the species of the HIA descriptor."""
     anchor = hia_reference("tert-butyl")
     cation = carbocation(cation_smiles, force=True)
     return {"cation": Species(cation.smiles, 1, 1), "adduct": hydride_adduct(cation),
