@@ -22,9 +22,9 @@ from __future__ import annotations
 
 import hashlib
 import json
-from typing import Literal
+from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, field_validator
 
 from . import __version__
 from .conformers import ConformerSettings
@@ -65,6 +65,13 @@ def check_pressure_pa(value: float) -> float:
         raise ValueError(f"pressure {value!r} Pa is outside {low:g}-{high:g} Pa, where the ideal-gas standard "
                          "state holds; give pascal in that range (101325 = 1 atm)")
     return number
+
+
+#: a temperature field (K) checked against TEMPERATURE_RANGE_K, wherever a model declares one
+TemperatureK = Annotated[float, AfterValidator(check_temperature_k)]
+#: a pressure field (Pa) checked against PRESSURE_RANGE_PA
+PressurePa = Annotated[float, AfterValidator(check_pressure_pa)]
+
 from .engines.solvents import normalise_solvent
 
 
@@ -76,8 +83,8 @@ class Settings(BaseModel):
     engine: Literal["tblite", "xtb"] = Field("tblite", description="GFN2-xTB implementation")
     method: Literal["GFN2-xTB"] = "GFN2-xTB"
     solvent: str | None = Field(None, description="implicit solvent name, None for the gas phase")
-    temperature_k: float = Field(298.15, description="K, within TEMPERATURE_RANGE_K")
-    pressure_pa: float = Field(101325.0, description="gas-phase standard pressure (1 atm), within PRESSURE_RANGE_PA")
+    temperature_k: TemperatureK = Field(298.15, description="K, within TEMPERATURE_RANGE_K")
+    pressure_pa: PressurePa = Field(101325.0, description="gas-phase standard pressure (1 atm), within PRESSURE_RANGE_PA")
     fmax_ev_per_angstrom: float = Field(0.01, gt=0)
     max_steps: int = Field(500, ge=1)
     optimizer: Literal["LBFGS", "BFGS", "FIRE", "PreconLBFGS"] = "LBFGS"
@@ -97,16 +104,6 @@ class Settings(BaseModel):
     @classmethod
     def _solvent(cls, value):
         return normalise_solvent(value)
-
-    @field_validator("temperature_k")
-    @classmethod
-    def _temperature(cls, value):
-        return check_temperature_k(value)
-
-    @field_validator("pressure_pa")
-    @classmethod
-    def _pressure(cls, value):
-        return check_pressure_pa(value)
 
     @property
     def solvent_model(self) -> str | None:

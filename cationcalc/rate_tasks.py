@@ -278,13 +278,10 @@ def _rate_prepared(site, base: dict, settings: Settings, m: Medium, temperature_
         nf = nucleofugality(site.leaving_group, m)
     except InputError as exc:
         return Prepared(base, error=str(exc))
-    anchor = hia_reference("tert-butyl")
     needs = _descriptor_needs(site.cation.smiles)
 
     def finish(res: dict[str, SpeciesResult]) -> dict:
-        hia = hydride_ion_affinity(res["cation"], res["adduct"], res["reference_cation"], res["reference_adduct"],
-                                   anchor)
-        est = estimate_electrofuge(site.cation.smiles, hia.hia_kcal_mol)
+        est = _electrofuge_estimate(site.cation.smiles, res)
         record = {**base, **kinetic_fields(est, nf, m, site.substrate.smiles, site.cation_class, temperature_k),
                   "rearranged": res["cation"].rearranged, "relaxed_cation_smiles": res["cation"].relaxed_smiles,
                   "warnings": _collect_warnings(res), "profile": _profile(res)}
@@ -325,6 +322,13 @@ def prepare_rate(text: str, name: str, settings: Settings, *, medium: Medium, te
     return usable
 
 
+def _electrofuge_estimate(cation_smiles: str, by_role: dict[str, SpeciesResult]) -> ElectrofugeEstimate:
+    """E_f and E of a cation from the results of its descriptor species (roles as in _descriptor_needs)."""
+    hia = hydride_ion_affinity(by_role["cation"], by_role["adduct"], by_role["reference_cation"],
+                               by_role["reference_adduct"], hia_reference("tert-butyl"))
+    return estimate_electrofuge(cation_smiles, hia.hia_kcal_mol)
+
+
 def _descriptor_needs(cation_smiles: str) -> dict[str, Species]:
     """The cation, its hydride adduct and the tert-butyl pair: the species of the HIA descriptor."""
     anchor = hia_reference("tert-butyl")
@@ -347,7 +351,6 @@ def add_rates(task: str, records: list[dict], settings: Settings, m: Medium | st
 
     m = lookup_medium(m) if isinstance(m, str) else m
     check_temperature(temperature_k)
-    anchor = hia_reference("tert-butyl")
     wanted = {r["cation_smiles"]: _descriptor_needs(r["cation_smiles"])
               for r in records if not r.get("error") and r.get("cation_smiles")}
     species_needed = list(dict.fromkeys(sp for needs in wanted.values() for sp in needs.values()))
@@ -360,9 +363,7 @@ def add_rates(task: str, records: list[dict], settings: Settings, m: Medium | st
         if failed:
             estimates[cation] = "; ".join(failed)
             continue
-        hia = hydride_ion_affinity(results[needs["cation"]], results[needs["adduct"]],
-                                   results[needs["reference_cation"]], results[needs["reference_adduct"]], anchor)
-        estimates[cation] = estimate_electrofuge(cation, hia.hia_kcal_mol)
+        estimates[cation] = _electrofuge_estimate(cation, {role: results[sp] for role, sp in needs.items()})
     for r in records:
         if r.get("error") or not r.get("cation_smiles"):
             continue

@@ -78,7 +78,7 @@ from . import SAFETY_NOTE, __version__
 from . import species as _species  # noqa: F401  (imported for its side effect: RDKit's parser stays quiet)
 from .conformers import ConformerSettings
 from .engines.solvents import normalise_solvent
-from .models import Settings, check_pressure_pa, check_temperature_k, species_key
+from .models import PressurePa, Settings, TemperatureK, species_key
 from .store import StoreError
 
 #: every task a workflow may name; which of them this installation can run is checked at plan time
@@ -103,8 +103,8 @@ class MethodSpec(_Strict):
     method: Literal["GFN2-xTB"] = Field("GFN2-xTB", description="GFN level")
     solvent: list[str | None] = Field(default_factory=lambda: [None],
                                       description="one implicit solvent or a list; none = gas phase")
-    temperature_k: float = Field(298.15, description="K, 50-3000 (models.TEMPERATURE_RANGE_K)")
-    pressure_pa: float = Field(101325.0, description="Pa, 1-1e7 (models.PRESSURE_RANGE_PA)")
+    temperature_k: TemperatureK = Field(298.15, description="K, 50-3000 (models.TEMPERATURE_RANGE_K)")
+    pressure_pa: PressurePa = Field(101325.0, description="Pa, 1-1e7 (models.PRESSURE_RANGE_PA)")
     qrrho: bool = True
     enantiomer_mixing: bool = False
     scf_max_iterations: int = Field(250, ge=1)
@@ -115,16 +115,6 @@ class MethodSpec(_Strict):
         if value is None or isinstance(value, str):
             return [value]
         return value
-
-    @field_validator("temperature_k")
-    @classmethod
-    def _temperature(cls, value):
-        return check_temperature_k(value)
-
-    @field_validator("pressure_pa")
-    @classmethod
-    def _pressure(cls, value):
-        return check_pressure_pa(value)
 
     @field_validator("solvent")
     @classmethod
