@@ -32,7 +32,7 @@ def child(smiles: str, repeat: int) -> None:
 
     from cationcalc.engines import get_engine
     from cationcalc.engines.blas import blas_status, mkl_in_use
-    from cationcalc.units import HARTREE_EV
+    from cationcalc.chem.units import HARTREE_EV
 
     mol = Chem.AddHs(Chem.MolFromSmiles(smiles))
     params = AllChem.ETKDGv3()

@@ -39,9 +39,10 @@ def main() -> None:
     parser.add_argument("--note", default="", help="a line appended to the report (e.g. the time of the first pass)")
     args = parser.parse_args()
 
-    from cationcalc import calibration, checks
-    from cationcalc.models import Settings
-    from cationcalc.store import ResultStore
+    from cationcalc.trust import calibration
+    from cationcalc.checks import literature as checks
+    from cationcalc.compute.models import Settings
+    from cationcalc.execution.store import ResultStore
 
     settings = Settings(engine=args.engine)
     out = Path(args.output)

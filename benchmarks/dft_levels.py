@@ -7,10 +7,10 @@ Baer 1993) with
 
 * GFN2-xTB (raw), the screening level;
 * GFN2-xTB calibrated: the stored gas-phase calibration of
-  ``cationcalc.calibration`` when one is bundled, otherwise a leave-one-out
+  ``cationcalc.trust.calibration`` when one is bundled, otherwise a leave-one-out
   linear fit on this same set (each cation predicted by the line through the
   others; said so in the output);
-* every offered DFT level of ``cationcalc.refine`` as DFT//xTB: DFT single
+* every offered DFT level of ``cationcalc.execution.refine`` as DFT//xTB: DFT single
   points on the GFN2-xTB geometries, thermal corrections from GFN2-xTB.
 
 Rows left out, and why (from the table's own notes and the reference README):
@@ -47,13 +47,13 @@ import numpy as np
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
-from cationcalc import units  # noqa: E402
-from cationcalc.executors import SpeciesFailure, compute_many  # noqa: E402
-from cationcalc.models import Settings  # noqa: E402
-from cationcalc.properties import hydride_ion_affinity  # noqa: E402
-from cationcalc.reference import hia_reference, load_table  # noqa: E402
-from cationcalc.refine import offered_levels, parse_level, refine_species  # noqa: E402
-from cationcalc.species import Species, carbocation, hydride_adduct  # noqa: E402
+from cationcalc.chem import units  # noqa: E402
+from cationcalc.execution.executors import SpeciesFailure, compute_many  # noqa: E402
+from cationcalc.compute.models import Settings  # noqa: E402
+from cationcalc.compute.properties import hydride_ion_affinity  # noqa: E402
+from cationcalc.chem.reference import hia_reference, load_table  # noqa: E402
+from cationcalc.execution.refine import offered_levels, parse_level, refine_species  # noqa: E402
+from cationcalc.chem.species import Species, carbocation, hydride_adduct  # noqa: E402
 
 EXCLUDED_NAMES = {"ethyl": "bridged ion; the 1979 value is 3–4 kcal/mol above later evaluations (table note)"}
 
@@ -106,7 +106,7 @@ def main(argv=None) -> int:
 
     from pyscf import lib
 
-    from cationcalc.store import ResultStore
+    from cationcalc.execution.store import ResultStore
 
     out_json = Path(args.output + ".json")
     out_md = Path(args.output + ".md")
@@ -152,7 +152,7 @@ def main(argv=None) -> int:
         "(conformers, optimisation, Hessian) from the store's recorded profile"}}
 
     # calibrated GFN2-xTB: stored calibration if bundled, else leave-one-out on this set
-    from cationcalc import calibration
+    from cationcalc.trust import calibration
 
     names = [n for n in exp if n in columns["GFN2-xTB raw"]]
     stored = calibration.gas_calibration("GFN2-xTB")
@@ -164,7 +164,7 @@ def main(argv=None) -> int:
         y = np.array([exp[n] for n in names])
         loo = calibration.loo_predictions(x, y)
         columns["GFN2-xTB calibrated"] = dict(zip(names, map(float, loo)))
-        cal_note = ("no calibration bundled: leave-one-out linear fit on this set with cationcalc.calibration "
+        cal_note = ("no calibration bundled: leave-one-out linear fit on this set with cationcalc.trust.calibration "
                     "(each cation predicted by the line through the others)")
     cost["GFN2-xTB calibrated"] = {"s_per_species": cost["GFN2-xTB raw"]["s_per_species"], "note": cal_note}
 
@@ -201,7 +201,7 @@ def main(argv=None) -> int:
                           "fit_seconds_at_100": float(np.exp(fit[1])) if fit[1] is not None else None}
 
     # thread speed-up of one single point (benzyl cation at the default level): 1 thread against the run above
-    from cationcalc.refine import DEFAULT_LEVEL
+    from cationcalc.execution.refine import DEFAULT_LEVEL
 
     benzyl = pairs.get("benzyl (0 K, onset)", (None,))[0]
     done = saved["single_points"].get(DEFAULT_LEVEL, {})

@@ -7,7 +7,7 @@ Streidl thesis 2010, Table 5.1) and of the benzhydrylium ions of Mayr's E
 scale (J. Am. Chem. Soc. 2001, 123, 9500; 2012 revisions) is computed (or read
 from the store), then E_f and E are fitted against HIA and against ΔG-HIA with
 leave-one-out errors.  ``--write`` stores the descriptors in
-cationcalc/data/cation_descriptors.csv, which cationcalc.electrofuges reads.
+cationcalc/data/cation_descriptors.csv, which cationcalc.trust.electrofuges reads.
 
     python benchmarks/electrofuge_calibration.py --store ef.sqlite --solvents none water dichloromethane --write
 """
@@ -21,12 +21,12 @@ import sys
 import time
 from pathlib import Path
 
-from cationcalc import __version__
-from cationcalc.electrofuges import (ScaleCalibration, _calibrate, descriptor_level, published_electrofugalities,
+from cationcalc.about import __version__
+from cationcalc.trust.electrofuges import (ScaleCalibration, _calibrate, descriptor_level, published_electrofugalities,
                                      published_electrophilicities)
-from cationcalc.models import Settings
-from cationcalc.store import ResultStore
-from cationcalc.tasks import run_task
+from cationcalc.compute.models import Settings
+from cationcalc.execution.store import ResultStore
+from cationcalc.tasks.runner import run_task
 
 DATA = Path(__file__).resolve().parent.parent / "cationcalc" / "data" / "cation_descriptors.csv"
 COLUMNS = ["cation_smiles", "level", "hia_kcal_mol", "hia_G_kcal_mol", "package_version", "computed"]
@@ -79,7 +79,7 @@ def main() -> int:
             writer = csv.DictWriter(handle, fieldnames=COLUMNS, lineterminator="\n")
             writer.writeheader()
             writer.writerows(rows)
-        from cationcalc import electrofuges
+        from cationcalc.trust import electrofuges
 
         electrofuges.descriptor_rows.cache_clear()
         print(f"wrote {len(rows)} rows to {DATA}", file=sys.stderr)

@@ -22,8 +22,8 @@ from _common import machine, run_child, save, substrates
 
 
 def child(engine: str, solvent: str, limit: int | None) -> None:
-    from cationcalc.models import Settings
-    from cationcalc.tasks import run_task
+    from cationcalc.compute.models import Settings
+    from cationcalc.tasks.runner import run_task
 
     computed = []
     start = time.perf_counter()

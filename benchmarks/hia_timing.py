@@ -10,9 +10,9 @@ import argparse
 import time
 from pathlib import Path
 
-from cationcalc.executors import compute_many
-from cationcalc.models import Settings
-from cationcalc.species import Species, carbocation, hydride_adduct
+from cationcalc.execution.executors import compute_many
+from cationcalc.compute.models import Settings
+from cationcalc.chem.species import Species, carbocation, hydride_adduct
 
 HERE = Path(__file__).resolve().parent
 

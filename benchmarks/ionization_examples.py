@@ -17,8 +17,8 @@ import argparse
 import time
 from pathlib import Path
 
-from cationcalc.models import Settings
-from cationcalc.tasks import run_task
+from cationcalc.compute.models import Settings
+from cationcalc.tasks.runner import run_task
 
 RESULTS = Path(__file__).parent / "results" / "ionization_examples.md"
 

@@ -6,7 +6,7 @@ For every substrate and its cation (the chloride taken off, as ``ionize``
 does) the first embedded conformer is relaxed in water to max |F| < 0.01 eV/Å
 (the pipeline's threshold, at most 500 steps) by each ASE optimizer from the
 same start: LBFGS, BFGS, FIRE and PreconLBFGS (LBFGS with an exponential
-bond-length preconditioner, cationcalc.optimize).  Prints per optimizer:
+bond-length preconditioner, cationcalc.compute.optimize).  Prints per optimizer:
 converged count, total and median gradients, total wall time, and how often
 it reached the lowest energy any optimizer found (within 0.05 kcal/mol).
 Writes ``benchmarks/results/optimizers.json``.
@@ -27,11 +27,11 @@ def main() -> None:
     parser.add_argument("--optimizers", nargs="+", default=["LBFGS", "BFGS", "FIRE", "PreconLBFGS"])
     args = parser.parse_args()
 
-    from cationcalc.conformers import embed_conformers
+    from cationcalc.chem.conformers import embed_conformers
     from cationcalc.engines import get_engine
-    from cationcalc.optimize import optimize
-    from cationcalc.species import heterolysis_fragments
-    from cationcalc.units import EV_TO_KCAL_MOL
+    from cationcalc.compute.optimize import optimize
+    from cationcalc.chem.species import heterolysis_fragments
+    from cationcalc.chem.units import EV_TO_KCAL_MOL
 
     engine = get_engine("tblite")
     jobs = []

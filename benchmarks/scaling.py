@@ -44,10 +44,10 @@ SERIES = {
 
 
 def child(smiles: str, cap: int) -> None:
-    from cationcalc.conformers import ConformerSettings
-    from cationcalc.executors import compute_one
-    from cationcalc.models import Settings
-    from cationcalc.species import Species, carbocation, hydride_adduct
+    from cationcalc.chem.conformers import ConformerSettings
+    from cationcalc.execution.executors import compute_one
+    from cationcalc.compute.models import Settings
+    from cationcalc.chem.species import Species, carbocation, hydride_adduct
 
     settings = Settings(solvent="water", conformers=ConformerSettings(base=cap, per_rotor=0, max_conformers=cap,
                                                                        n_optimize=cap))

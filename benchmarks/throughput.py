@@ -25,8 +25,8 @@ from _common import machine, peak_rss_mb, run_child, save, substrates
 
 
 def child(workers: int, shifts: bool, limit: int | None) -> None:
-    from cationcalc.models import Settings
-    from cationcalc.tasks import run_task
+    from cationcalc.compute.models import Settings
+    from cationcalc.tasks.runner import run_task
 
     items = substrates(limit)
     computed, per_species = [], []

@@ -18,10 +18,6 @@ for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     _os.environ.setdefault(_var, "1")
 _os.environ.setdefault("OMP_STACKSIZE", "256M")
 
-__version__ = "0.1.0"
+from cationcalc.about import SAFETY_NOTE, __version__  # noqa: E402  (after the thread pins)
 
-SAFETY_NOTE = (
-    "Screening estimates from semi-empirical quantum chemistry, not safety data: alkyl halides "
-    "and sulfonates are alkylating agents, diazonium salts can detonate, superacids burn. Follow "
-    "the SDS, local rules and licensed practice."
-)
+__all__ = ["SAFETY_NOTE", "__version__"]

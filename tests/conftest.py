@@ -2,7 +2,7 @@
 
 import pytest
 
-from cationcalc.models import Settings
+from cationcalc.compute.models import Settings
 
 
 @pytest.fixture(scope="session")

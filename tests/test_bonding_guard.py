@@ -6,8 +6,8 @@ ring-expands to cyclopentyl; 2-norbornyl relaxes to its bridged
 tried here at GFN2-xTB, so the bridged branch is checked on 2-norbornyl.)
 """
 
-from cationcalc.pipeline import compute_species
-from cationcalc.species import Species, carbocation
+from cationcalc.compute.pipeline import compute_species
+from cationcalc.chem.species import Species, carbocation
 
 
 def _cation(smiles):

@@ -15,11 +15,11 @@ from importlib import resources
 import numpy as np
 import pytest
 
-from cationcalc import calibration as cal_mod
-from cationcalc.calibration import (MIN_GROUP_N, class_group, error_statistics, fit_calibration, fit_linear,
+from cationcalc.trust import calibration as cal_mod
+from cationcalc.trust.calibration import (MIN_GROUP_N, class_group, error_statistics, fit_calibration, fit_linear,
                                     loo_predictions, loo_residuals, write_calibrations)
-from cationcalc.models import Settings
-from cationcalc.uncertainty import annotate, format_value
+from cationcalc.compute.models import Settings
+from cationcalc.trust.uncertainty import annotate, format_value
 
 
 # ---------------------------------------------------------------- statistics on synthetic data
@@ -204,8 +204,8 @@ def test_format_value():
 
 
 def test_run_task_and_cli_carry_uncertainty_and_calibration(gas, capsys):
-    from cationcalc.cli import main
-    from cationcalc.tasks import run_task
+    from cationcalc.cli.main import main
+    from cationcalc.tasks.runner import run_task
 
     rec = run_task("hia", [("C[CH+]C", "2-propyl")], gas, calibrated=True)[0]
     assert rec["calibrated"] and rec["hia_raw_kcal_mol"] > rec["hia_kcal_mol"] > 0

@@ -40,11 +40,11 @@ import pytest
 from rdkit import Chem
 from rdkit.Chem.rdMolDescriptors import CalcMolFormula
 
-from cationcalc import checks
-from cationcalc.checks import (ISOMERS, TREND_CATIONS, alcohol_smiles, correlation_statistics, cumyl_smiles,
+from cationcalc.checks import literature as checks
+from cationcalc.checks.literature import (ISOMERS, TREND_CATIONS, alcohol_smiles, correlation_statistics, cumyl_smiles,
                                reference_sets, trend_checks)
-from cationcalc.reference import load_table
-from cationcalc.species import carbocation
+from cationcalc.chem.reference import load_table
+from cationcalc.chem.species import carbocation
 
 TABLES = {  # table → (SMILES column, value column)
     "gas_hydride_ion_affinities": ("cation_smiles", "hia_kcal_mol"),

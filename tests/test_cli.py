@@ -4,7 +4,7 @@ import json
 
 import pytest
 
-from cationcalc.cli import main
+from cationcalc.cli.main import main
 
 
 def test_hia_json_records_and_bad_inputs_in_one_batch(capsys):
@@ -60,7 +60,7 @@ def test_table_output_names_method_anchor_and_safety(capsys):
 
 def test_ctrl_c_prints_what_finished_and_exits_130(monkeypatch, capsys):
     # the second species to be computed raises KeyboardInterrupt, as Ctrl-C would
-    import cationcalc.executors as executors
+    import cationcalc.execution.executors as executors
 
     real = executors.compute_one
     calls = {"n": 0}

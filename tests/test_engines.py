@@ -3,9 +3,9 @@
 import numpy as np
 import pytest
 
-from cationcalc.conformers import embed_conformers
+from cationcalc.chem.conformers import embed_conformers
 from cationcalc.engines import SCFConvergenceError, UnknownSolventError, get_engine
-from cationcalc.units import HARTREE_EV
+from cationcalc.chem.units import HARTREE_EV
 
 
 @pytest.mark.parametrize("smiles, charge", [("C[C+](C)C", 1), ("CC(C)(C)Cl", 0), ("CC(=O)[O-]", -1)])
@@ -65,10 +65,10 @@ def test_scf_failure_walks_the_retry_ladder_then_reports():
 _BLAS_PROBE = """
 import json, sys
 import numpy as np
-from cationcalc.conformers import embed_conformers
+from cationcalc.chem.conformers import embed_conformers
 from cationcalc.engines import get_engine
 from cationcalc.engines.blas import blas_status, mkl_in_use
-from cationcalc.units import HARTREE_EV
+from cationcalc.chem.units import HARTREE_EV
 out = []
 for smiles, charge, solvent in [("CC(C)(Cl)c1ccccc1", 0, "water"), ("[CH2+]c1ccc(-c2ccccc2)cc1", 1, None)]:
     mol, geometries = embed_conformers(smiles)

@@ -14,10 +14,10 @@ import pytest
 from hypothesis import HealthCheck, assume, given, settings, strategies as st
 from rdkit import Chem, RDLogger
 
-from cationcalc.conformers import ConformerSettings
-from cationcalc.models import Settings
-from cationcalc.species import InputError, carbocation, hydride_adduct
-from cationcalc.tasks import run_task
+from cationcalc.chem.conformers import ConformerSettings
+from cationcalc.compute.models import Settings
+from cationcalc.chem.species import InputError, carbocation, hydride_adduct
+from cationcalc.tasks.runner import run_task
 
 RDLogger.DisableLog("rdApp.*")
 

@@ -2,8 +2,8 @@
 
 import pytest
 
-from cationcalc.reference import load_table
-from cationcalc.tasks import run_task
+from cationcalc.chem.reference import load_table
+from cationcalc.tasks.runner import run_task
 
 SUBSTRATES = ["CC(C)(C)Cl", "CC(C)Cl", "CCCl", "CCl"]
 

@@ -22,8 +22,8 @@ import numpy as np
 import pytest
 from scipy.stats import spearmanr
 
-from cationcalc.reference import load_table
-from cationcalc.tasks import run_task
+from cationcalc.chem.reference import load_table
+from cationcalc.tasks.runner import run_task
 
 ROWS = {row["name"]: row for row in load_table("gas_hydride_ion_affinities")}
 # name in the table -> cation SMILES given to the tool

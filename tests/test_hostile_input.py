@@ -20,14 +20,14 @@ from pathlib import Path
 
 import pytest
 
-from cationcalc.cli import COLUMNS, build_parser, main
-from cationcalc.conformers import ConformerSettings
-from cationcalc.executors import SpeciesFailure, compute_many, compute_one
-from cationcalc.models import PRESSURE_RANGE_PA, TEMPERATURE_RANGE_K, Settings, SpeciesResult
-from cationcalc.species import InputError, Species, species
-from cationcalc.store import ResultStore, StoreError
-from cationcalc.study import WorkflowError, build_plan, describe_plan, load_workflow, run_plan
-from cationcalc.study import main as run_main
+from cationcalc.cli.main import COLUMNS, build_parser, main
+from cationcalc.chem.conformers import ConformerSettings
+from cationcalc.execution.executors import SpeciesFailure, compute_many, compute_one
+from cationcalc.compute.models import PRESSURE_RANGE_PA, TEMPERATURE_RANGE_K, Settings, SpeciesResult
+from cationcalc.chem.species import InputError, Species, species
+from cationcalc.execution.store import ResultStore, StoreError
+from cationcalc.studies.workflow import WorkflowError, build_plan, describe_plan, load_workflow, run_plan
+from cationcalc.cli.run_command import main as run_main
 from store_probe import stored_species
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -72,7 +72,7 @@ def test_bad_command_lines_are_one_line_usage_errors_with_exit_2(argv, words, ca
 
 
 def test_run_and_check_suggest_too(tmp_path, capsys):
-    from cationcalc.checks import main as check_main
+    from cationcalc.cli.check_command import main as check_main
 
     assert run_main([str(tmp_path / "x.yaml"), "--wrokers", "2"]) == 2
     assert "did you mean '--workers'" in one_line_error(capsys)
@@ -83,8 +83,8 @@ def test_run_and_check_suggest_too(tmp_path, capsys):
 
 
 def test_refine_never_swallows_a_smiles():
-    from cationcalc.arguments import split_refine
-    from cationcalc.refine import DEFAULT_LEVEL
+    from cationcalc.cli.arguments import split_refine
+    from cationcalc.execution.refine import DEFAULT_LEVEL
 
     parser = build_parser()
     args = parser.parse_args(split_refine(["hia", "--refine", "[CH2+]c1ccccc1", "C[CH+]C"]))
@@ -95,7 +95,7 @@ def test_refine_never_swallows_a_smiles():
 
 
 def test_smiles_after_a_bare_refine_are_inputs(monkeypatch):
-    import cationcalc.cli as cli
+    import cationcalc.cli.main as cli
     import cationcalc.engines.pyscf_engine as pyscf_engine
 
     seen = {}
@@ -129,7 +129,7 @@ def test_thermo_energy_columns_carry_units():
 
 
 def test_quick_check_is_described_with_the_same_words_in_help_and_readme():
-    from cationcalc.checks import build_parser as check_parser
+    from cationcalc.cli.check_command import build_parser as check_parser
 
     help_text = next(a.help for a in check_parser()._actions if "--quick" in a.option_strings)
     readme = (ROOT / "README.md").read_text(encoding="utf-8")
@@ -252,7 +252,7 @@ def test_workflow_temperature_is_bounded_with_file_and_line(tmp_path, capsys):
 
 
 def test_no_nan_reaches_json_and_a_species_result_refuses_it(water_result):
-    from cationcalc.report import records_json
+    from cationcalc.report.outputs import records_json
 
     data = json.loads(records_json([{"x": float("nan"), "y": [1.0, float("inf")]}], {"study": "s"}))
     assert data["records"] == [{"x": None, "y": [1.0, None]}]
@@ -299,7 +299,7 @@ def test_isotope_labels_are_refused_in_one_line(text, label, capsys):
 # ---------------------------------------------------------------------------------------------
 
 def _never_compute(monkeypatch):
-    import cationcalc.executors as executors
+    import cationcalc.execution.executors as executors
 
     def refuse(*args, **kwargs):
         raise AssertionError("computed although the outputs cannot be written")
@@ -342,7 +342,7 @@ def test_a_store_write_that_fails_mid_run_keeps_the_results(tmp_path, capsys):
 
 
 def test_outputs_that_fail_mid_run_are_rescued_and_named(tmp_path, monkeypatch, capsys):
-    import cationcalc.report as report
+    import cationcalc.report.outputs as report
 
     path = write(tmp_path, "study: s\nspecies: ['[H][H]']\ntasks: [thermo]\nconformers: {max_conformers: 2}\n"
                            "output: {folder: out}\nexecution: {workers: 1}\n")
@@ -459,7 +459,7 @@ def test_pool_workers_exit_when_the_parent_is_killed(tmp_path):
 def test_newlines_in_names_do_not_corrupt_sdf_or_xyz(water_result):
     from rdkit import Chem
 
-    from cationcalc.report import structures_sdf, xyz_files
+    from cationcalc.report.outputs import structures_sdf, xyz_files
 
     prov = {"study": "s", "workflow_sha256": "0" * 64, "versions": {"cationcalc": "test"}}
     evil = "water\n$$$$\nM  END\r\n3\ninjected"
@@ -480,7 +480,7 @@ def test_csv_text_cells_cannot_become_formulas_but_numbers_stay_numbers():
     import csv
     import io
 
-    from cationcalc.report import csv_text
+    from cationcalc.report.outputs import csv_text
 
     records = [{"name": "=HYPERLINK(\"http://x\",\"y\")", "note": "+1 of 2", "who": "@SUM(A1)",
                 "dash": "-cmd|' /C calc'!A0", "dG_kcal_mol": -5.25, "text_number": "-1.5", "smiles": "C[C+](C)C"}]
@@ -553,7 +553,7 @@ def test_an_empty_sdf_names_the_file_and_the_record(tmp_path):
 
 def test_dask_local_leaves_no_scratch_folder(tmp_path, monkeypatch):
     pytest.importorskip("distributed")
-    from cationcalc.executors import _dask_client
+    from cationcalc.execution.executors import _dask_client
 
     scratch_root = tmp_path / "tmp"
     scratch_root.mkdir()

@@ -6,12 +6,12 @@ import math
 import pytest
 from rdkit import Chem
 
-from cationcalc.cli import main
-from cationcalc.ionization import cation_class, heterolysis_sites, hydride_sites, reference_substrate, verdict
-from cationcalc.leaving_groups import attach, find_leaving_groups, ladder_groups, leaving_group, library
-from cationcalc.reference import load_table
-from cationcalc.species import InputError, carbocation, split_bond
-from cationcalc.tasks import run_task
+from cationcalc.cli.main import main
+from cationcalc.chem.ionization import cation_class, heterolysis_sites, hydride_sites, reference_substrate, verdict
+from cationcalc.chem.leaving_groups import attach, find_leaving_groups, ladder_groups, leaving_group, library
+from cationcalc.chem.reference import load_table
+from cationcalc.chem.species import InputError, carbocation, split_bond
+from cationcalc.tasks.runner import run_task
 
 # --- the library (pure graph work) -------------------------------------------------------------
 
@@ -273,8 +273,8 @@ def test_tert_butyl_ester_and_boc_ionize_more_easily_under_acid(water, smiles):
 def test_tert_butyl_acetate_is_a_minimum_not_a_saddle_point(water):
     # a neutral ester is a minimum (common practice, no source); the flat methyl and ester torsions
     # once left a 60i cm-1 mode after mode following at the ordinary optimisation threshold
-    from cationcalc.pipeline import compute_species
-    from cationcalc.species import species
+    from cationcalc.compute.pipeline import compute_species
+    from cationcalc.chem.species import species
 
     result = compute_species(species("CC(=O)OC(C)(C)C"), water)
     assert result.imaginary_frequencies_cm1 == []
@@ -282,8 +282,8 @@ def test_tert_butyl_acetate_is_a_minimum_not_a_saddle_point(water):
 
 
 def test_saddle_point_warnings_speak_of_the_species_they_are_about():
-    from cationcalc.pipeline import saddle_warning
-    from cationcalc.species import Species
+    from cationcalc.compute.pipeline import saddle_warning
+    from cationcalc.chem.species import Species
 
     neutral = saddle_warning(Species("CC(=O)OC(C)(C)C", 0, 1), "60i", 3)
     assert "cation" not in neutral and "neutral molecule" in neutral
@@ -296,7 +296,7 @@ def test_saddle_point_warnings_speak_of_the_species_they_are_about():
 def test_every_verdict_row_reads_as_its_number_says():
     # the thresholds are project choices (ionization_verdicts.csv gives the reason for each); what is
     # tested here is that the printed words follow the printed number on both sides of every limit
-    from cationcalc.ionization import verdict_rules
+    from cationcalc.chem.ionization import verdict_rules
 
     rules = verdict_rules()
     for key, keyword in (("ddG_ion", "ddG_ion_kcal_mol"), ("dHIA", "dHIA_kcal_mol")):

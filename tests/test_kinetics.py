@@ -12,15 +12,15 @@ import math
 
 import pytest
 
-from cationcalc import kinetics
-from cationcalc.ionization import heterolysis_sites
-from cationcalc.electrofuges import (electrofugality_calibration, electrophilicity_calibration, estimate_electrofuge,
+from cationcalc.chem import kinetics
+from cationcalc.chem.ionization import heterolysis_sites
+from cationcalc.trust.electrofuges import (electrofugality_calibration, electrophilicity_calibration, estimate_electrofuge,
                                      published_electrofugalities)
-from cationcalc.media import media, medium
-from cationcalc.nucleofuges import ionizing_power_route, nucleofugality
-from cationcalc.rate_tasks import applicability, kinetic_fields, rate_class, tert_butyl_check
-from cationcalc.reference import load_table
-from cationcalc.species import InputError
+from cationcalc.chem.media import media, medium
+from cationcalc.trust.nucleofuges import ionizing_power_route, nucleofugality
+from cationcalc.tasks.rate import applicability, kinetic_fields, rate_class, tert_butyl_check
+from cationcalc.chem.reference import load_table
+from cationcalc.chem.species import InputError
 
 
 def _published_k(name: str, medium_code: str) -> float:
@@ -223,7 +223,7 @@ def test_lifetime_flags_a_cation_that_cannot_be_free():
     # Mayr–Patz with water (N1 5.20, s_N 0.89; Minegishi, Kobayashi, Mayr J. Am. Chem. Soc. 2004, 126, 5174,
     # value from memory) and TFE (N1 1.11, s_N 0.96; Mayr et al. 2012): benzhydrylium lives longer in TFE
     est = estimate_electrofuge("c1ccc([CH+]c2ccccc2)cc1", 228.7)
-    from cationcalc.rate_tasks import lifetime_fields
+    from cationcalc.tasks.rate import lifetime_fields
 
     water, tfe = lifetime_fields(est, medium("water")), lifetime_fields(est, medium("97% TFE (w/w)"))
     assert tfe["lifetime_s"] > water["lifetime_s"]
@@ -236,7 +236,7 @@ def test_lifetime_flags_a_cation_that_cannot_be_free():
 
 
 def test_rate_temperature_bounds():
-    from cationcalc.rate_tasks import check_temperature
+    from cationcalc.tasks.rate import check_temperature
 
     for bad in (200.0, 500.0, float("nan"), float("inf")):
         with pytest.raises(InputError):
@@ -250,7 +250,7 @@ def test_rate_temperature_bounds():
 def test_rate_task_benzhydryl_and_tert_butyl(gas):
     # computed E_f (leave-one-out for benzhydrylium) against published k in three media
     # (Streidl 2010 thesis Table S1 transcription) and tert-butyl chloride in water (Mabey & Mill 1978)
-    from cationcalc.tasks import run_task
+    from cationcalc.tasks.runner import run_task
 
     for code in ("80E20W", "TFE", "MeOH"):
         records = run_task("rate", [("ClC(c1ccccc1)c1ccccc1", "benzhydryl chloride")], gas, medium=code,
@@ -266,7 +266,7 @@ def test_rate_task_benzhydryl_and_tert_butyl(gas):
 
 
 def test_rate_cli_batch_with_bad_inputs(capsys):
-    from cationcalc.cli import main
+    from cationcalc.cli.main import main
 
     code = main(["rate", "ClC(c1ccccc1)c1ccccc1", "CCCC", "CC(C)(C)OS(C)(=O)=O", "--medium", "80E20W", "--json"])
     records = json.loads(capsys.readouterr().out)
@@ -285,7 +285,7 @@ def test_rate_cli_batch_with_bad_inputs(capsys):
 def test_ladder_kinetic_order_resolves_the_thermodynamic_one(water):
     # 1-phenylethyl: ΔG_ion puts chloride ahead of tosylate in water, while tosylate solvolyses about 10⁴
     # times faster (relative rates of 1-phenylethyl-X, Noyce & Virgilio 1972, values from memory)
-    from cationcalc.tasks import run_task
+    from cationcalc.tasks.runner import run_task
 
     records = run_task("ladder", [("CC(*)c1ccccc1", "1-phenylethyl")], water, groups=["Cl", "OTs"],
                        medium="80E20W", rate_temperature_k=298.15)
@@ -296,7 +296,7 @@ def test_ladder_kinetic_order_resolves_the_thermodynamic_one(water):
 
 
 def test_ionize_with_a_medium_speaks_in_time(water):
-    from cationcalc.tasks import run_task
+    from cationcalc.tasks.runner import run_task
 
     (r,) = run_task("ionize", [("CC(C)(C)Cl", "")], water, medium="water", rate_temperature_k=298.15, shifts=False)
     assert r["verdict"] == kinetics.time_verdict(r["half_life_s"], "").verdict
@@ -307,14 +307,18 @@ def test_ionize_with_a_medium_speaks_in_time(water):
 def test_docstring_examples_of_the_kinetics_modules_run():
     import doctest
 
-    from cationcalc import electrofuges, media as media_module, nucleofuges, rate_checks, rate_figures, rate_tasks
+    from cationcalc.trust import electrofuges, nucleofuges
+    from cationcalc.chem import media as media_module
+    from cationcalc.checks import rates as rate_checks
+    from cationcalc.report.outputs import rate_figures
+    from cationcalc.tasks import rate as rate_tasks
 
     for module in (kinetics, media_module, nucleofuges, electrofuges, rate_tasks, rate_figures, rate_checks):
         assert doctest.testmod(module).failed == 0, module.__name__
 
 
 def test_rate_task_over_several_media_shares_species(gas):
-    from cationcalc.tasks import run_task
+    from cationcalc.tasks.runner import run_task
 
     records = run_task("rate", [("ClC(c1ccccc1)c1ccccc1", "benzhydryl chloride")], gas, medium=["80E20W", "EtOH"],
                        temperature_k=298.15)
@@ -327,7 +331,7 @@ def test_benzhydryl_rates_from_computed_E_f_within_a_factor_of_five():
     # every benzhydryl row of the rate set (Streidl 2010 thesis Table S1 transcription) predicted from the
     # computed E_f (the stored GFN2-xTB descriptor of the cation, leave-one-out: no cation's own published
     # E_f enters its prediction); the kinetics requirement: MAE ≤ 0.7 log units
-    from cationcalc.electrofuges import canonical_cation, descriptor_level, descriptor_rows
+    from cationcalc.trust.electrofuges import canonical_cation, descriptor_level, descriptor_rows
 
     stored = {canonical_cation(r["cation_smiles"]): float(r["hia_kcal_mol"]) for r in descriptor_rows()
               if r["level"] == descriptor_level()}
@@ -349,7 +353,7 @@ def test_benzhydryl_rates_from_computed_E_f_within_a_factor_of_five():
 def test_rate_check_set_recomputed():
     # the whole rate set recomputed from scratch (cationcalc check --sets rates): benzhydryl MAE ≤ 0.7,
     # tert-butyl chloride within two log units, solvent-assisted controls flagged (sources in solvolysis_rates.csv)
-    from cationcalc.rate_checks import run_rate_checks
+    from cationcalc.checks.rates import run_rate_checks
 
     report = run_rate_checks(workers=2)
     assert report["benzhydryl"]["n"] >= 20 and report["benzhydryl"]["mae"] <= 0.7

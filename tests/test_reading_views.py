@@ -6,8 +6,8 @@ the chemistry behind the values is tested in test_ionization.py and test_shifts.
 
 import re
 
-from cationcalc.cli import _print_view, build_parser
-from cationcalc.columns import VIEWS, Column, cell, note, view
+from cationcalc.cli.main import _print_view, build_parser
+from cationcalc.report.columns import VIEWS, Column, cell, note, view
 
 LONG_CATION = "[CH2+]c1ccc([N+](=O)[O-])cc1C(=O)OC(C)(C)Cc1ccc(OC)cc1"  # invented, longer than a cell
 
@@ -73,9 +73,9 @@ def test_charge_cards_draw_the_relaxed_structure_and_the_centres_own_charge(gas)
     # carbenium centre carries the largest positive charge of the carbons (common practice, no source)
     from rdkit import Chem
 
-    from cationcalc.pipeline import compute_species
-    from cationcalc.report import _centre_text, depiction_png, drawn_structure
-    from cationcalc.species import species
+    from cationcalc.compute.pipeline import compute_species
+    from cationcalc.report.outputs import _centre_text, depiction_png, drawn_structure
+    from cationcalc.chem.species import species
 
     propyl = compute_species(species("CC[CH2+]"), gas)
     assert propyl.rearranged
@@ -91,7 +91,7 @@ def test_charge_cards_draw_the_relaxed_structure_and_the_centres_own_charge(gas)
 
 
 def test_charge_palette_is_the_projects_own():
-    from cationcalc.report import CHARGE_COLOURS, CHARGE_SCALE, _charge_colour
+    from cationcalc.report.outputs import CHARGE_COLOURS, CHARGE_SCALE, _charge_colour
 
     assert CHARGE_COLOURS == ("#13706b", "#ffffff", "#d97a00")
     r, g, b = _charge_colour(CHARGE_SCALE)
@@ -107,8 +107,8 @@ def test_citations_are_citations_and_status_is_a_separate_field():
     import csv
     from importlib import resources
 
-    from cationcalc.checks import _trend
-    from cationcalc.reference import hia_reference, load_table
+    from cationcalc.checks.literature import _trend
+    from cationcalc.chem.reference import hia_reference, load_table
 
     banned = ("from memory", "recalled", "not verified", "this session", "copied from", "shared/", "abstract")
     folder = resources.files("cationcalc") / "data"
@@ -142,8 +142,8 @@ def test_rank_gaps_carry_the_error_of_a_same_class_difference():
     import math
     from importlib import resources
 
-    from cationcalc.models import Settings
-    from cationcalc.uncertainty import annotate
+    from cationcalc.compute.models import Settings
+    from cationcalc.trust.uncertainty import annotate
 
     path = resources.files("cationcalc") / "data" / "calibration_residuals.csv"
     rows = [r for r in csv.DictReader(path.open(encoding="utf-8")) if r["calibration_id"].startswith("GFN2-xTB (gas)")]
@@ -167,8 +167,8 @@ def test_rank_gaps_carry_the_error_of_a_same_class_difference():
 def test_site_tiers_follow_the_gap_and_its_error():
     # project's own tier limits: 1.4 kcal/mol (factor 10 in K at 298 K) and 4.1 kcal/mol (factor 1000),
     # RT ln 10 = 1.36 kcal/mol at 298.15 K (common practice, no source)
-    from cationcalc import units
-    from cationcalc.columns import SITE_TIERS, site_tier
+    from cationcalc.chem import units
+    from cationcalc.report.columns import SITE_TIERS, site_tier
 
     assert SITE_TIERS[0][1] == round(units.rt_kcal_mol(298.15) * 2.302585, 1)
     assert SITE_TIERS[1][1] == round(3 * units.rt_kcal_mol(298.15) * 2.302585, 1)

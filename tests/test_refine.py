@@ -2,7 +2,7 @@
 
 Published figures come from the bundled gas-phase HIA table
 (cationcalc/data/gas_hydride_ion_affinities.csv, read with
-``cationcalc.reference.load_table``); each check names the publication of
+``cationcalc.chem.reference.load_table``); each check names the publication of
 its row.  The anchor is tert-butyl, 236.7 kcal/mol (Keister, Riley and Baer,
 J. Am. Chem. Soc. 115, 12613 (1993)).
 
@@ -34,17 +34,17 @@ import pytest
 pytest.importorskip("pyscf")
 pytest.importorskip("pyscf.dispersion")
 
-from cationcalc import units  # noqa: E402
+from cationcalc.chem import units  # noqa: E402
 from cationcalc.engines.pyscf_engine import (  # noqa: E402
     ChargeMultiplicityError,
     DFTConvergenceError,
     dft_single_point,
     spin_of,
 )
-from cationcalc.executors import compute_one  # noqa: E402
-from cationcalc.models import Settings  # noqa: E402
-from cationcalc.reference import load_table  # noqa: E402
-from cationcalc.refine import (  # noqa: E402
+from cationcalc.execution.executors import compute_one  # noqa: E402
+from cationcalc.compute.models import Settings  # noqa: E402
+from cationcalc.chem.reference import load_table  # noqa: E402
+from cationcalc.execution.refine import (  # noqa: E402
     MAX_BASIS_FUNCTIONS,
     RefineError,
     estimate_cost,
@@ -55,8 +55,8 @@ from cationcalc.refine import (  # noqa: E402
     select_for_refinement,
     xtb_key,
 )
-from cationcalc.species import species  # noqa: E402
-from cationcalc.tasks import run_task  # noqa: E402
+from cationcalc.chem.species import species  # noqa: E402
+from cationcalc.tasks.runner import run_task  # noqa: E402
 
 LEVEL = "wB97X-D3BJ/def2-SVP"
 TOLERANCE_KCAL_MOL = 7.0  # each cation; justified in the module docstring
@@ -81,8 +81,8 @@ def refined_hia(tmp_path_factory):
 
 def _kelvin_0(record: dict) -> float:
     """The record's HIA converted from 298 K to 0 K with the thermal contents of cation and adduct."""
-    from cationcalc.executors import compute_many
-    from cationcalc.species import Species, carbocation, hydride_adduct
+    from cationcalc.execution.executors import compute_many
+    from cationcalc.chem.species import Species, carbocation, hydride_adduct
 
     cation = carbocation(record["cation_smiles"])
     res = compute_many([Species(cation.smiles, 1, 1), hydride_adduct(cation)], Settings())
@@ -221,7 +221,7 @@ def _xtb_minus_best(result, settings) -> float:
 
 
 def test_refined_results_are_stored_by_level(tmp_path):
-    from cationcalc.store import ResultStore
+    from cationcalc.execution.store import ResultStore
 
     sp = species("O")
     result = compute_one(sp, Settings())
@@ -246,7 +246,7 @@ def test_selection_and_key_names():
 
 
 def test_cli_refine_without_pyscf_says_how_to_install(monkeypatch, capsys):
-    from cationcalc.cli import main
+    from cationcalc.cli.main import main
 
     monkeypatch.setitem(sys.modules, "pyscf", None)  # import pyscf now raises ImportError
     assert main(["hia", "C[C+](C)C", "--refine"]) == 2
@@ -254,7 +254,7 @@ def test_cli_refine_without_pyscf_says_how_to_install(monkeypatch, capsys):
 
 
 def test_cli_unknown_level_exits_2_with_the_offered_levels(capsys):
-    from cationcalc.cli import main
+    from cationcalc.cli.main import main
 
     assert main(["hia", "C[C+](C)C", "--refine", "HF/STO-3G"]) == 2
     err = capsys.readouterr().err.strip()
@@ -263,8 +263,8 @@ def test_cli_unknown_level_exits_2_with_the_offered_levels(capsys):
 
 @pytest.mark.slow
 def test_cli_benzyl_at_default_level_within_published_uncertainty(capsys):
-    from cationcalc.cli import main
-    from cationcalc.refine import DEFAULT_LEVEL
+    from cationcalc.cli.main import main
+    from cationcalc.execution.refine import DEFAULT_LEVEL
 
     assert main(["hia", "[CH2+]c1ccccc1", "--refine", "--json", "--workers", "1"]) == 0
     record = json.loads(capsys.readouterr().out)[0]
@@ -281,8 +281,8 @@ def test_sigma_plus_correlation_of_para_benzyl_cations_after_dft_refinement():
     # wB97X-D3BJ/def2-SVP single points on the same geometries gave r = 0.994 when measured here.
     from scipy.stats import pearsonr
 
-    from cationcalc.reference import load_table
-    from cationcalc.tasks import run_task
+    from cationcalc.chem.reference import load_table
+    from cationcalc.tasks.runner import run_task
 
     rows = load_table("sigma_plus")
     records = run_task("hia", [(r["benzyl_cation_smiles"], r["substituent"]) for r in rows], Settings(),

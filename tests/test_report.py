@@ -10,10 +10,11 @@ import textwrap
 import numpy as np
 import pytest
 
-from cationcalc import SAFETY_NOTE, units
-from cationcalc.report import heavy_atom_charges, ladder_figure
-from cationcalc.store import ResultStore
-from cationcalc.study import run_study
+from cationcalc.about import SAFETY_NOTE
+from cationcalc.chem import units
+from cationcalc.report.outputs import heavy_atom_charges, ladder_figure
+from cationcalc.execution.store import ResultStore
+from cationcalc.studies.workflow import run_study
 
 STUDY = """
     study: report-check

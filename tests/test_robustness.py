@@ -17,14 +17,14 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from cationcalc.cli import main
-from cationcalc.conformers import ConformerSettings, embed_conformers
+from cationcalc.cli.main import main
+from cationcalc.chem.conformers import ConformerSettings, embed_conformers
 from cationcalc.engines import EngineError, get_engine
-from cationcalc.executors import SpeciesFailure, compute_one
-from cationcalc.models import Settings
-from cationcalc.optimize import optimize
-from cationcalc.pipeline import ComputationError, compute_species
-from cationcalc.species import MAX_HEAVY_ATOMS, species
+from cationcalc.execution.executors import SpeciesFailure, compute_one
+from cationcalc.compute.models import Settings
+from cationcalc.compute.optimize import optimize
+from cationcalc.compute.pipeline import ComputationError, compute_species
+from cationcalc.chem.species import MAX_HEAVY_ATOMS, species
 from store_probe import stored_species
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -134,7 +134,7 @@ def test_nan_from_the_engine_is_caught_and_fails_the_species(monkeypatch):
         for _ in range(3):
             engine.compute([1, 1], np.array([[0, 0, 0], [0, 0, 0.74]]), charge=0, multiplicity=1, solvent=None)
     calls["n"] = 0
-    import cationcalc.executors as executors
+    import cationcalc.execution.executors as executors
 
     monkeypatch.setattr(executors, "_ENGINES", {})
     failure = compute_one(species("CC"), Settings(conformers=FEW))
@@ -181,7 +181,7 @@ def test_ctrl_c_keeps_what_finished_and_leaves_no_temporary_files(tmp_path, work
 
 @pytest.mark.parametrize("where", ["fsync", "replace"])
 def test_a_crash_while_writing_leaves_the_old_file_whole_and_no_temporary_file(tmp_path, monkeypatch, where):
-    from cationcalc import report
+    from cationcalc.report import outputs as report
 
     path = tmp_path / "results.json"
     path.write_bytes(b'{"old": true}\n')

@@ -4,7 +4,7 @@ Pure graph tests (enumeration, stereo, the search logic on made-up energies)
 are instant; the energetic tests compute every cation at GFN2-xTB like the
 rest of the package.  Published figures come from the bundled copy of the
 shared reference table (``cationcalc/data/rearrangements.csv``), read with
-:func:`cationcalc.reference.load_table`; each check names its source.
+:func:`cationcalc.chem.reference.load_table`; each check names its source.
 
 Slow cases (adamantyl cations, NEB barriers other than the cheapest one)
 run with ``python -m pytest -m slow tests/test_shifts.py``.
@@ -20,13 +20,13 @@ import pytest
 from rdkit import Chem
 from rdkit.Chem import rdCIPLabeler
 
-from cationcalc import units
-from cationcalc.executors import compute_many
-from cationcalc.models import Settings, SpeciesResult
-from cationcalc.reference import load_table
-from cationcalc.shifts import (DEFAULT_CEILING_KCAL_MOL, DEFAULT_THRESHOLD_KCAL_MOL, ShiftSearch,
+from cationcalc.chem import units
+from cationcalc.execution.executors import compute_many
+from cationcalc.compute.models import Settings, SpeciesResult
+from cationcalc.chem.reference import load_table
+from cationcalc.tasks.shifts import (DEFAULT_CEILING_KCAL_MOL, DEFAULT_THRESHOLD_KCAL_MOL, ShiftSearch,
                                classify_relaxation, enumerate_shifts, run_shifts, skipped_shifts)
-from cationcalc.species import Species, carbocation
+from cationcalc.chem.species import Species, carbocation
 
 # ----------------------------------------------------------------------------- helpers
 
@@ -326,7 +326,7 @@ def test_neopentyl_methyl_shift_has_no_barrier(gas):
 
 
 def test_cli_json_records_carry_shifts(capsys):
-    from cationcalc.cli import main
+    from cationcalc.cli.main import main
 
     code = main(["shifts", "[CH2+]C(C)(C)C", "C[C+]C", "--depth", "1", "--json", "--workers", "1"])
     records = json.loads(capsys.readouterr().out)
@@ -421,7 +421,7 @@ def test_2_butyl_reports_its_degenerate_hydride_shift_and_no_false_barrierless_p
     # 2-butyl cation scrambles by a degenerate 2,3-hydride shift (observed by NMR in superacid; common
     # practice, no source); its route to tert-butyl passes isobutyl, which is not a minimum at GFN2-xTB,
     # so the height of that route is unknown: it must not read as barrierless or as a 0.0 highest point
-    from cationcalc.ionization_tasks import rearrangement_text
+    from cationcalc.tasks.ionization import rearrangement_text
 
     rec = _shifts("C[CH+]CC", gas, depth=2)
     assert any(d.startswith("hydride") for d in rec["degenerate_shifts"])

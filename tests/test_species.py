@@ -2,7 +2,7 @@
 
 import pytest
 
-from cationcalc.species import InputError, carbocation, heterolysis_fragments, hydride_adduct, species
+from cationcalc.chem.species import InputError, carbocation, heterolysis_fragments, hydride_adduct, species
 
 
 @pytest.mark.parametrize("onium, carbenium", [

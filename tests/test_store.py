@@ -5,10 +5,10 @@ import sqlite3
 
 import pytest
 
-from cationcalc.executors import SpeciesFailure, compute_many, compute_one
-from cationcalc.models import Settings, species_key
-from cationcalc.species import species
-from cationcalc.store import ResultStore, StoreError
+from cationcalc.execution.executors import SpeciesFailure, compute_many, compute_one
+from cationcalc.compute.models import Settings, species_key
+from cationcalc.chem.species import species
+from cationcalc.execution.store import ResultStore, StoreError
 
 
 @pytest.fixture(scope="module")
@@ -74,8 +74,8 @@ def test_a_file_that_is_not_a_store_is_refused_in_one_line(tmp_path):
 
 
 def _writer(path, payload, offset, count, start):
-    from cationcalc.models import SpeciesResult
-    from cationcalc.store import ResultStore
+    from cationcalc.compute.models import SpeciesResult
+    from cationcalc.execution.store import ResultStore
 
     template = SpeciesResult.model_validate_json(payload)
     start.wait()

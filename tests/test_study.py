@@ -11,8 +11,9 @@ from pathlib import Path
 
 import pytest
 
-from cationcalc import SAFETY_NOTE
-from cationcalc.study import WorkflowError, build_plan, load_workflow, main, run_study
+from cationcalc.about import SAFETY_NOTE
+from cationcalc.cli.run_command import main
+from cationcalc.studies.workflow import WorkflowError, build_plan, load_workflow, run_study
 from store_probe import stored_species
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -135,9 +136,9 @@ def test_yaml_syntax_and_duplicate_keys(tmp_path):
 
 
 def test_a_task_whose_code_is_not_installed_is_refused_at_plan_time(tmp_path, monkeypatch):
-    import cationcalc.tasks
+    import cationcalc.tasks.runner
 
-    monkeypatch.setattr(cationcalc.tasks, "TASKS", ("hia", "heterolysis"))
+    monkeypatch.setattr(cationcalc.tasks.runner, "TASKS", ("hia", "heterolysis"))
     path = write(tmp_path, """
         study: s
         species: ["O"]
@@ -293,7 +294,7 @@ def test_a_killed_run_resumes_computing_only_what_is_missing(tmp_path, sig):
     assert not (tmp_path / "out" / "results.json").exists()  # no partial outputs
     kept = stored_species(store)
     assert 1 <= kept < len(MANY)
-    from cationcalc.store import ResultStore
+    from cationcalc.execution.store import ResultStore
 
     with ResultStore(store) as s:
         assert s.integrity() == "ok"
@@ -317,7 +318,7 @@ def test_two_runs_sharing_one_store_at_once(tmp_path):
                               stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env) for p in paths]
     outputs = [p.communicate(timeout=300) for p in procs]
     assert [p.returncode for p in procs] == [0, 0], outputs
-    from cationcalc.store import ResultStore
+    from cationcalc.execution.store import ResultStore
 
     with ResultStore(tmp_path / "shared.sqlite") as store:
         assert store.integrity() == "ok" and len(store) == 5

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from ase.build import molecule
 
-from cationcalc.symmetry import PointGroup, point_group, symmetry_number
+from cationcalc.chem.symmetry import PointGroup, point_group, symmetry_number
 
 
 # ----------------------------------------------------------------------------
@@ -282,6 +282,6 @@ def test_large_icosahedral_molecule_is_fast():
 def test_docstring_examples():
     import doctest
 
-    import cationcalc.symmetry
+    import cationcalc.chem.symmetry
 
-    assert doctest.testmod(cationcalc.symmetry).failed == 0
+    assert doctest.testmod(cationcalc.chem.symmetry).failed == 0

@@ -9,8 +9,8 @@ import math
 import numpy as np
 import pytest
 
-from cationcalc import thermo, units
-from cationcalc.thermo import QuasiRRHO
+from cationcalc.chem import thermo, units
+from cationcalc.chem.thermo import QuasiRRHO
 
 H = units.PLANCK_J_S
 C_CM_S = units.SPEED_OF_LIGHT_M_S * 100.0

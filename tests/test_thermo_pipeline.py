@@ -14,17 +14,17 @@ import math
 import numpy as np
 import pytest
 
-from cationcalc import thermo, units
-from cationcalc.bonding import bonds_from_mol, compare_bonding
-from cationcalc.cli import main
-from cationcalc.conformers import ConformerSettings, embed_conformers
+from cationcalc.chem import thermo, units
+from cationcalc.chem.bonding import bonds_from_mol, compare_bonding
+from cationcalc.cli.main import main
+from cationcalc.chem.conformers import ConformerSettings, embed_conformers
 from cationcalc.engines import get_engine
-from cationcalc.hessian import numerical_hessian
-from cationcalc.models import Settings
-from cationcalc.optimize import OptimizationResult, optimize
-from cationcalc.pipeline import _Conformer, _masses, _vibrate, compute_species
-from cationcalc.species import Species, carbocation, species
-from cationcalc.symmetry import point_group
+from cationcalc.compute.hessian import numerical_hessian
+from cationcalc.compute.models import Settings
+from cationcalc.compute.optimize import OptimizationResult, optimize
+from cationcalc.compute.pipeline import _Conformer, _masses, _vibrate, compute_species
+from cationcalc.chem.species import Species, carbocation, species
+from cationcalc.chem.symmetry import point_group
 
 #: JANAF standard state is 1 bar
 ONE_BAR = Settings(pressure_pa=100000.0)

@@ -13,8 +13,8 @@ Example
 
 from __future__ import annotations
 
-from .base import Engine, EngineError, EngineResult, SCFConvergenceError, UnknownSolventError
-from .solvents import normalise_solvent
+from cationcalc.engines.base import Engine, EngineError, EngineResult, SCFConvergenceError, UnknownSolventError
+from cationcalc.engines.solvents import normalise_solvent
 
 ENGINE_NAMES = ("tblite", "xtb")
 
@@ -23,11 +23,11 @@ def get_engine(name: str = "tblite", **options) -> Engine:
     """A fresh engine by name ('tblite' or 'xtb')."""
     key = str(name).lower()
     if key == "tblite":
-        from .tblite_engine import TBLiteEngine
+        from cationcalc.engines.tblite_engine import TBLiteEngine
 
         return TBLiteEngine(**options)
     if key in ("xtb", "xtb-python"):
-        from .xtb_engine import XTBEngine
+        from cationcalc.engines.xtb_engine import XTBEngine
 
         return XTBEngine(**options)
     raise ValueError(f"unknown engine {name!r}: choose one of {', '.join(ENGINE_NAMES)}")

@@ -38,7 +38,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .base import EngineError
+from cationcalc.engines.base import EngineError
 
 INSTALL_HINT = "pip install 'cationcalc[dft]'"
 

@@ -26,9 +26,9 @@ from typing import Sequence
 
 import numpy as np
 
-from .. import units
-from .blas import prepare_blas
-from .base import (
+from cationcalc.chem import units
+from cationcalc.engines.blas import prepare_blas
+from cationcalc.engines.base import (
     CachedEngineState,
     EngineError,
     EngineResult,
@@ -37,7 +37,7 @@ from .base import (
     _Timer,
     check_finite,
 )
-from .solvents import ALPB_NAMES, GBSA_NAMES
+from cationcalc.engines.solvents import ALPB_NAMES, GBSA_NAMES
 
 _KELVIN_TO_HARTREE = units.BOLTZMANN_J_K / (units.HARTREE_EV * units.EV_TO_J_MOL / units.AVOGADRO)
 

@@ -21,9 +21,9 @@ from typing import Sequence
 
 import numpy as np
 
-from .. import units
-from .base import CachedEngineState, EngineResult, SCFConvergenceError, UnknownSolventError, _Timer, check_finite
-from .solvents import GBSA_NAMES
+from cationcalc.chem import units
+from cationcalc.engines.base import CachedEngineState, EngineResult, SCFConvergenceError, UnknownSolventError, _Timer, check_finite
+from cationcalc.engines.solvents import GBSA_NAMES
 
 
 class XTBEngine(CachedEngineState):

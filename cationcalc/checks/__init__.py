@@ -1,0 +1,1 @@
+"""``cationcalc check``: bundled reference sets recomputed and compared with published experiment."""

@@ -1,0 +1,118 @@
+"""Conformer ensembles from RDKit ETKDGv3 with a force-field clean-up.
+
+The number of embedded conformers grows with the number of rotatable bonds
+(``base + per_rotor × n_rot``, capped at ``max_conformers``), the seed is
+fixed so that runs are reproducible, and near-duplicates are pruned by
+heavy-atom RMSD during embedding.  Geometries are then cleaned with a force
+field where one fits: MMFF94 for species without a cationic carbon (MMFF
+types a carbenium carbon as a neutral alkene carbon, so it is never used on
+cations), UFF otherwise, and none when neither has parameters.  Force-field
+energies are never used to rank conformers: that is GFN2-xTB's job.
+
+Example
+-------
+>>> from cationcalc.chem.conformers import ConformerSettings, embed_conformers
+>>> mol, geometries = embed_conformers("CCCC", ConformerSettings())
+>>> len(geometries) >= 2, geometries[0].shape
+(True, (14, 3))
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field
+from rdkit import Chem
+from rdkit.Chem import AllChem, rdMolDescriptors
+
+
+class ConformerSettings(BaseModel):
+    """How conformers are generated and how many reach GFN2-xTB optimisation."""
+
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+    base: int = Field(4, ge=1, description="conformers embedded for a rigid molecule")
+    per_rotor: int = Field(4, ge=0, description="extra conformers per rotatable bond")
+    max_conformers: int = Field(30, ge=1, description="cap on embedded conformers")
+    prune_rms_angstrom: float = Field(0.1, ge=0.0, description="all-atom RMSD pruning at embedding (0: none)")
+    seed: int = Field(20261202, description="ETKDG random seed (fixed: runs are reproducible)")
+    n_optimize: int = Field(3, ge=1, description="lowest single-point conformers optimised with GFN2-xTB")
+    window_kcal_mol: float = Field(3.0, ge=0.0, description="energy window of the Boltzmann ensemble")
+
+    def count_for(self, n_rotatable: int) -> int:
+        return max(1, min(self.max_conformers, self.base + self.per_rotor * n_rotatable))
+
+
+def with_hydrogens(smiles: str) -> Chem.Mol:
+    """The RDKit molecule with explicit hydrogens (atom order used everywhere after)."""
+    mol = Chem.MolFromSmiles(smiles)
+    return Chem.AddHs(mol)
+
+
+def _has_cationic_carbon(mol: Chem.Mol) -> bool:
+    return any(a.GetSymbol() == "C" and a.GetFormalCharge() > 0 for a in mol.GetAtoms())
+
+
+def _force_field_clean(mol: Chem.Mol, conf_ids) -> str:
+    """Relax embedded geometries with MMFF94 or UFF in place; returns the field used."""
+    try:
+        if not _has_cationic_carbon(mol) and AllChem.MMFFHasAllMoleculeParams(mol):
+            AllChem.MMFFOptimizeMoleculeConfs(mol, numThreads=1, maxIters=500)
+            return "MMFF94"
+        if AllChem.UFFHasAllMoleculeParams(mol):
+            AllChem.UFFOptimizeMoleculeConfs(mol, numThreads=1, maxIters=500)
+            return "UFF"
+    except Exception:  # a force-field failure only means no clean-up
+        pass
+    return "none"
+
+
+def embed_conformers(smiles: str, settings: ConformerSettings = ConformerSettings()) -> tuple[Chem.Mol, list[np.ndarray]]:
+    """Embed and clean conformers; returns the H-complete molecule and geometries (Å)."""
+    mol = with_hydrogens(smiles)
+    n_atoms = mol.GetNumAtoms()
+    if n_atoms == 1:
+        return mol, [np.zeros((1, 3))]
+    heavy = Chem.RemoveHs(mol)
+    n_rot = rdMolDescriptors.CalcNumRotatableBonds(heavy)
+    params = AllChem.ETKDGv3()
+    params.randomSeed = int(settings.seed)
+    params.pruneRmsThresh = float(settings.prune_rms_angstrom)
+    params.numThreads = 1
+    # hydrogens count in the pruning RMSD: in a cation the orientation of a C–H next to the
+    # centre (hyperconjugation) decides the energy, and heavy-atom RMSD cannot see it
+    params.onlyHeavyAtomsForRMS = False
+    params.useRandomCoords = n_atoms > 60
+    conf_ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=settings.count_for(n_rot), params=params))
+    if not conf_ids:
+        params.useRandomCoords = True
+        conf_ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=settings.count_for(n_rot), params=params))
+    if conf_ids:
+        _force_field_clean(mol, conf_ids)
+        return mol, [np.array(mol.GetConformer(cid).GetPositions(), dtype=float) for cid in conf_ids]
+    # a planar carbenium centre inside a cage (1-adamantyl, bridgehead cations) defeats the
+    # embedding's sp2 constraints: embed the hydride adduct and take the extra hydrogen away
+    geometries = _embed_through_adduct(mol, settings.count_for(n_rot), params)
+    if not geometries:
+        raise RuntimeError(f"RDKit could not embed 3-D coordinates for {smiles!r}")
+    return mol, geometries
+
+
+def _embed_through_adduct(mol: Chem.Mol, count: int, params) -> list[np.ndarray]:
+    centres = [a.GetIdx() for a in mol.GetAtoms() if a.GetSymbol() == "C" and a.GetFormalCharge() == 1]
+    if len(centres) != 1:
+        return []
+    adduct = Chem.RWMol(mol)
+    centre = adduct.GetAtomWithIdx(centres[0])
+    centre.SetFormalCharge(0)
+    hydrogen = adduct.AddAtom(Chem.Atom(1))
+    adduct.AddBond(centres[0], hydrogen, Chem.BondType.SINGLE)
+    adduct = adduct.GetMol()
+    Chem.SanitizeMol(adduct)
+    conf_ids = list(AllChem.EmbedMultipleConfs(adduct, numConfs=count, params=params))
+    _force_field_clean(adduct, conf_ids)
+    n = mol.GetNumAtoms()
+    return [np.array(adduct.GetConformer(cid).GetPositions(), dtype=float)[:n] for cid in conf_ids]
+
+
+def count_rotatable_bonds(smiles: str) -> int:
+    return rdMolDescriptors.CalcNumRotatableBonds(Chem.MolFromSmiles(smiles))

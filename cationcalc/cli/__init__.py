@@ -1,0 +1,1 @@
+"""The command line: argument parsing, input files, tables/JSON/CSV, exit codes."""

@@ -1,0 +1,2 @@
+"""One species: settings and result models, optimisation, Hessian, the species pipeline, NEB barriers and the
+arithmetic of HIA and heterolysis over species results."""

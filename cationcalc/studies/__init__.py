@@ -1,0 +1,1 @@
+"""YAML workflows: schema with FILE:LINE errors, plan, runner."""

@@ -1,0 +1,1 @@
+"""Tasks: input → species needed → record.  One module per family of tasks on the shared record base."""

@@ -1,0 +1,361 @@
+"""Ionization tasks: ``ionize``, ``sites`` and ``ladder`` as species requests and records.
+
+* ``ionize``: ΔG_ion of R–X → R⁺ + X (X⁻ from a neutral substrate, neutral X
+  from a cationic one) in the chosen solvent, ΔΔG_ion against a reference
+  substrate (default: tert-butyl with the same leaving group), the
+  equilibrium factor exp(−ΔΔG/RT) and a plausibility verdict.  With several
+  leaving groups the most favourable site is reported and the others are
+  listed under ``alternatives``.
+* ``sites``: every symmetry-distinct ionization site, ranked by ΔG_ion; a
+  molecule without a leaving group (or ``hydride=True``) is scanned by
+  hydride abstraction at every symmetry-distinct C–H, ranked by HIA.
+  Cations the structure rule flags (methyl, unstabilized primary, vinylic,
+  aryl) and cations that are not minima rank after the others whatever
+  their number: GFN2-xTB overstabilizes vinyl cations (it puts 2-propenyl
+  below allyl, the reverse of experiment), so the number alone would mislead.
+* ``ladder``: one skeleton (``*`` at the attachment point) with every
+  leaving group of the library, ranked by ΔG_ion, with the Spearman ρ against
+  published relative solvolysis rates where the groups overlap.
+
+Example
+-------
+>>> from cationcalc.tasks.runner import run_task
+>>> from cationcalc.compute.models import Settings
+>>> r = run_task("ionize", [("CC(C)(C)Cl", "")], Settings(solvent="water"))[0]
+>>> r["leaving_group"], r["verdict"], r["ddG_ion_kcal_mol"]
+('chloride', 'SN1/E1 plausible', 0.0)
+"""
+
+from __future__ import annotations
+
+import math
+
+from cationcalc.chem import units
+from cationcalc.chem.ionization import (TERT_BUTYL, IonizationSite, equilibrium_factor, heterolysis_sites, hydride_sites,
+                         reference_substrate, skeleton_cation_smiles, structurally_flagged, verdict)
+from cationcalc.chem.leaving_groups import attach, ladder_groups, leaving_group as lookup_leaving_group
+from cationcalc.compute.models import Settings, SpeciesResult
+from cationcalc.compute.properties import heterolysis_energy, hydride_ion_affinity
+from cationcalc.tasks.records import Prepared, record_base, collect_warnings, species_profile
+from cationcalc.chem.reference import hia_reference, load_table
+from cationcalc.chem.species import InputError, Species, hydride_adduct
+
+SOLVATION_NOTE = ("implicit solvent ({model}) misses specific solvation of the anion (hydrogen bonds), which "
+                  "matters most for small anions (F⁻, Cl⁻, OH⁻) in protic solvents")
+EQUILIBRIUM_NOTE = ("equilibrium_factor = exp(−ΔΔG_ion/RT) is a ratio of ionization equilibrium constants, "
+                    "not of rates")
+LADDER_NOTE = ("ΔG_ion is an equilibrium quantity; solvolysis rates also reflect the transition state (ion-pair "
+               "return, solvent assistance), so the kinetic order of leaving groups (sulfonates > iodide) need "
+               "not follow it")
+
+
+def _site_fields(site: IonizationSite) -> dict:
+    return {"substrate_smiles": site.substrate.smiles, "cation_smiles": site.cation.smiles,
+            "leaving_group": site.leaving_group, "leaving_group_smiles": site.departing.smiles,
+            "site_atom": site.site_atom, "equivalent_atoms": list(site.equivalent_atoms),
+            "protonated_oxygen": site.protonated_oxygen, "cation_class": site.cation_class}
+
+
+def _cation_outcome(site: IonizationSite, res: dict[str, SpeciesResult]) -> dict:
+    """What happened to the cation on optimisation, the warnings and the profile of one site."""
+    cation = res["cation"]
+    warnings = collect_warnings(res)
+    if cation.rearranged:
+        warnings.insert(0, f"the cation {site.cation.smiles} is not a minimum at this level: it relaxed to "
+                           f"{cation.relaxed_smiles or 'a bridged structure'}")
+    return {"rearranged": cation.rearranged, "relaxed_cation_smiles": cation.relaxed_smiles,
+            "warnings": warnings, "profile": species_profile(res)}
+
+
+def _heterolysis_prepared(site: IonizationSite, base: dict, settings: Settings,
+                          reference: IonizationSite | None) -> Prepared:
+    """ΔG_ion of one site, its tert-butyl analogue (for the verdict) and an optional user reference."""
+    base = {**base, **_site_fields(site)}
+    try:
+        tbu = reference_substrate(site, TERT_BUTYL)
+    except InputError as exc:
+        return Prepared(base, error=str(exc))
+    user = reference or tbu
+    needs = {"substrate": site.substrate, "cation": Species(site.cation.smiles, 1, 1), "departing": site.departing,
+             "tbu_substrate": tbu.substrate, "tbu_cation": Species(tbu.cation.smiles, 1, 1),
+             "tbu_departing": tbu.departing, "reference_substrate": user.substrate,
+             "reference_cation": Species(user.cation.smiles, 1, 1), "reference_departing": user.departing}
+    base["reference_substrate"] = user.substrate.smiles
+
+    def finish(res: dict[str, SpeciesResult]) -> dict:
+        energy = heterolysis_energy(res["substrate"], res["cation"], res["departing"])
+        tbu_energy = heterolysis_energy(res["tbu_substrate"], res["tbu_cation"], res["tbu_departing"])
+        ref_energy = heterolysis_energy(res["reference_substrate"], res["reference_cation"],
+                                        res["reference_departing"])
+        ddg = energy.dG_kcal_mol - ref_energy.dG_kcal_mol
+        ddg_tbu = energy.dG_kcal_mol - tbu_energy.dG_kcal_mol
+        judged = verdict(site.cation_class, ddG_ion_kcal_mol=ddg_tbu, dG_ion_kcal_mol=energy.dG_kcal_mol,
+                         solution=settings.solvent is not None, temperature_k=settings.temperature_k)
+        record = dict(base)
+        record.update({
+            "dE_ion_kcal_mol": round(energy.dE_kcal_mol, 2),
+            "dH_ion_kcal_mol": round(energy.dH_kcal_mol, 2),
+            "minus_TdS_ion_kcal_mol": round(energy.minus_TdS_kcal_mol, 2),
+            "dG_ion_kcal_mol": round(energy.dG_kcal_mol, 2),
+            "dG_ion_kJ_mol": round(units.kcal_to_kj(energy.dG_kcal_mol), 1),
+            "dG_ion_reference_kcal_mol": round(ref_energy.dG_kcal_mol, 2),
+            "ddG_ion_kcal_mol": round(ddg, 2),
+            "ddG_ion_kJ_mol": round(units.kcal_to_kj(ddg), 1),
+            "equilibrium_factor": float(f"{equilibrium_factor(ddg, settings.temperature_k):.3g}"),
+            "ddG_ion_vs_tert_butyl_kcal_mol": round(ddg_tbu, 2),
+            "verdict": judged.verdict, "verdict_reason": judged.reason,
+            "standard_state": "1 mol/L (solution)" if settings.solvent else "1 atm (gas)",
+            "solvation_note": SOLVATION_NOTE.format(model=settings.level) if settings.solvent else "",
+            "equilibrium_note": EQUILIBRIUM_NOTE,
+            **_cation_outcome(site, res),
+        })
+        return record
+
+    return Prepared(base, needs, finish=finish)
+
+
+def _hydride_prepared(site: IonizationSite, base: dict, settings: Settings) -> Prepared:
+    """HIA of the cation formed by hydride abstraction at one site (anchor: tert-butyl)."""
+    anchor = hia_reference("tert-butyl")
+    base = {**base, **_site_fields(site), "reference": anchor.name, "reference_hia_kcal_mol": anchor.hia_kcal_mol,
+            "reference_source": anchor.source, "reference_status": anchor.status}
+    ref_cation = Species(anchor.cation_smiles, 1, 1)
+    needs = {"cation": Species(site.cation.smiles, 1, 1), "adduct": hydride_adduct(site.cation),
+             "reference_cation": ref_cation, "reference_adduct": Species(anchor.adduct_smiles, 0, 1)}
+
+    def finish(res: dict[str, SpeciesResult]) -> dict:
+        hia = hydride_ion_affinity(res["cation"], res["adduct"], res["reference_cation"], res["reference_adduct"],
+                                   anchor)
+        d_hia = hia.hia_kcal_mol - anchor.hia_kcal_mol
+        judged = verdict(site.cation_class, dHIA_kcal_mol=d_hia, temperature_k=settings.temperature_k)
+        record = dict(base)
+        record.update({
+            "hia_kcal_mol": round(hia.hia_kcal_mol, 2),
+            "hia_kJ_mol": round(units.kcal_to_kj(hia.hia_kcal_mol), 1),
+            "hia_G_kcal_mol": round(hia.hia_G_kcal_mol, 2),
+            "dHIA_vs_tert_butyl_kcal_mol": round(d_hia, 2),
+            "verdict": judged.verdict, "verdict_reason": judged.reason,
+            **_cation_outcome(site, res),
+        })
+        return record
+
+    return Prepared(base, needs, finish=finish)
+
+
+def _user_reference(sites: list[IonizationSite], group_name: str, text: str) -> IonizationSite:
+    """The reference substrate's site with the given leaving group (its only site otherwise)."""
+    chosen = [s for s in sites if s.leaving_group == group_name] or sites
+    if len(chosen) != 1:
+        raise InputError(f"reference substrate {text!r} has {len(chosen)} ionization sites; give one with a single "
+                         "leaving group, e.g. CC(C)(C)Cl")
+    return chosen[0]
+
+
+def prepare_ionize(text: str, name: str, settings: Settings, *, leaving_group: str = "auto", acid: bool = False,
+                   reference: str | None = None, force: bool = False) -> list[Prepared]:
+    base = {**record_base(text, name, settings), "task": "ionize"}
+    try:
+        group = None if leaving_group in (None, "", "auto") else lookup_leaving_group(leaving_group)
+        sites = heterolysis_sites(text, leaving_group=group, acid=acid, force=force)
+    except InputError as exc:
+        return [Prepared(base, error=str(exc))]
+    out = []
+    try:
+        reference_sites = heterolysis_sites(reference, force=force) if reference else None
+        for site in sites:
+            user = _user_reference(reference_sites, site.leaving_group, reference) if reference_sites else None
+            out.append(_heterolysis_prepared(site, base, settings, user))
+    except InputError as exc:
+        return [Prepared(base, error=str(exc))]
+    return out
+
+
+def prepare_sites(text: str, name: str, settings: Settings, *, acid: bool = False, hydride: bool = False,
+                  force: bool = False) -> list[Prepared]:
+    base = {**record_base(text, name, settings), "task": "sites"}
+    try:
+        if hydride:
+            return [_hydride_prepared(s, {**base, "site_kind": "hydride abstraction"}, settings)
+                    for s in hydride_sites(text, force=force)]
+        try:
+            sites = heterolysis_sites(text, acid=acid, force=force)
+        except InputError:
+            if acid:
+                raise
+            # no leaving group: scan C–H bonds by hydride abstraction instead
+            return [_hydride_prepared(s, {**base, "site_kind": "hydride abstraction"}, settings)
+                    for s in hydride_sites(text, force=force)]
+    except InputError as exc:
+        return [Prepared(base, error=str(exc))]
+    return [_heterolysis_prepared(s, {**base, "site_kind": "heterolysis"}, settings, None) for s in sites]
+
+
+def prepare_ladder(skeleton: str, name: str, settings: Settings, *, groups: list[str] | None = None,
+                   force: bool = False) -> list[Prepared]:
+    base = {**record_base(skeleton, name, settings), "task": "ladder", "skeleton": skeleton}
+    try:
+        chosen = [lookup_leaving_group(g) for g in groups] if groups else ladder_groups()
+        out = []
+        for group in chosen:
+            substrate = attach(skeleton, group)
+            skeleton_cation = skeleton_cation_smiles(skeleton)
+            sites = [s for s in heterolysis_sites(substrate, leaving_group=group, force=force)
+                     if s.cation.smiles == skeleton_cation]
+            if not sites:
+                raise InputError(f"{skeleton!r} with {group.name}: no site at the attachment point")
+            out.append(_heterolysis_prepared(sites[0], base, settings, None))
+        return out
+    except InputError as exc:
+        return [Prepared(base, error=str(exc))]
+
+
+def solvolysis_rates() -> dict[str, dict]:
+    """Relative solvolysis rates of 1-phenylethyl-X by leaving-group name (bundled, with source)."""
+    return {row["leaving_group"]: row for row in load_table("solvolysis_leaving_groups")}
+
+
+def spearman_rho(x: list[float], y: list[float]) -> float:
+    """Spearman rank correlation (average ranks for ties)."""
+    from scipy.stats import spearmanr
+
+    return float(spearmanr(x, y).statistic)
+
+
+def collate(task: str, records: list[dict], settings: Settings) -> list[dict]:
+    """Per-input post-processing: choose (ionize) or rank (sites, ladder)."""
+    if task not in ("ionize", "sites", "ladder"):
+        return records
+    ok = [r for r in records if not r.get("error")]
+    failed = [r for r in records if r.get("error")]
+    if task == "ionize":
+        if not ok:
+            return failed[:1] if len(failed) == 1 else [_merge_errors(failed)]
+        best = min(ok, key=_rank_key("dG_ion_kcal_mol"))
+        best["alternatives"] = [{k: r.get(k) for k in ("site_atom", "leaving_group", "cation_smiles",
+                                                       "dG_ion_kcal_mol", "verdict", "error")}
+                                for r in records if r is not best]
+        if best["alternatives"]:
+            best["warnings"].append(f"{len(records)} ionization sites: the most favourable is shown; "
+                                    "`cationcalc sites` ranks them all")
+        return [best]
+    key = "hia_kcal_mol" if ok and "hia_kcal_mol" in ok[0] else "dG_ion_kcal_mol"
+    # the ranking follows the verdict rule: cations the structure rule flags (methyl, unstabilized
+    # primary, vinylic, aryl) and cations that are not minima (they relax to another cation) come
+    # after the others whatever their number; within each tier, by the number
+    ok.sort(key=_rank_key(key))
+    for rank, r in enumerate(ok, 1):
+        r["rank"] = rank
+        r[f"{key.replace('_kcal_mol', '')}_vs_best_kcal_mol"] = round(r[key] - ok[0][key], 2)
+        if r.get("rearranged"):
+            r["verdict"] = "not a minimum"
+            r["verdict_reason"] = (f"the {r['cation_class']} cation {r['cation_smiles']} relaxes without a barrier "
+                                   f"at this level to {r.get('relaxed_cation_smiles') or 'a bridged structure'}; "
+                                   f"the number belongs to that structure. " + r["verdict_reason"])
+    if task == "ladder":
+        rates = solvolysis_rates()
+        common = [r for r in ok if r["leaving_group"] in rates]
+        rho = None
+        if len(common) >= 3:
+            rho = spearman_rho([-r["dG_ion_kcal_mol"] for r in common],
+                               [math.log10(float(rates[r["leaving_group"]]["k_rel"])) for r in common])
+        first_row = next(iter(rates.values()), None)
+        source = f"{first_row['source']} — 1-phenylethyl-X, {first_row['conditions']}" if first_row else ""
+        for r in ok:
+            row = rates.get(r["leaving_group"])
+            r["solvolysis_k_rel"] = float(row["k_rel"]) if row else None
+            r["spearman_rho_vs_solvolysis"] = round(rho, 3) if rho is not None else None
+            r["solvolysis_n"] = len(common)
+            r["solvolysis_source"] = source
+            r["solvolysis_status"] = first_row["status"] if first_row else None
+            r["ladder_note"] = LADDER_NOTE
+    return ok + failed
+
+
+def attach_shifts(records: list[dict], known: dict, settings: Settings, *, workers: int = 1, store=None,
+                  progress=None, threshold_kcal_mol: float | None = None) -> list[dict]:
+    """Add a ``shifts`` section: the downhill 1,2-shifts of every cation formed (one shift deep).
+
+    Cations already computed for the records (``known``: species → result) are
+    reused; only the shift products are new.  Records gain ``shifts`` (the
+    flagged shifts, keys as in ``cationcalc shifts``), ``sink_smiles`` and a
+    one-line ``shift_summary``.
+    """
+    from cationcalc.execution.executors import compute_many
+    from cationcalc.tasks.shifts import DEFAULT_THRESHOLD_KCAL_MOL, run_shifts
+
+    threshold = DEFAULT_THRESHOLD_KCAL_MOL if threshold_kcal_mol is None else threshold_kcal_mol
+    cations = list(dict.fromkeys(r["cation_smiles"] for r in records
+                                 if not r.get("error") and r.get("cation_smiles")))
+    if not cations:
+        return records
+
+    def compute(species_list):
+        out = {sp: known[sp] for sp in species_list if sp in known}
+        missing = [sp for sp in species_list if sp not in out]
+        if missing:
+            out.update(compute_many(missing, settings, workers=workers, progress=progress, store=store))
+        return out
+
+    found = dict(zip(cations, run_shifts([(c, "") for c in cations], settings, depth=1,
+                                         threshold_kcal_mol=threshold, compute=compute)))
+    for r in records:
+        screen = found.get(r.get("cation_smiles"))
+        if screen is None:
+            continue
+        if screen.get("error"):
+            r["shifts"], r["sink_smiles"] = None, None
+            r["warnings"].append(f"shift screen failed: {screen['error']}")
+            continue
+        r["shifts"] = [s for s in screen["shifts"] if s["flagged"]]
+        r["sink_smiles"] = screen.get("sink_smiles")
+        r["degenerate_shifts"] = screen.get("degenerate_shifts", [])
+        r["shift_summary"] = "; ".join(
+            f"{s['kind']} → {s['product_smiles']}"
+            + (f" (not a minimum: relaxes to {s['relaxed_to']})" if s.get("relaxed_to") else "")
+            + f" ΔG {s['dG_kcal_mol']:+.1f}; {s.get('barrier_status', 'barrier not computed')}"
+            for s in r["shifts"])
+        r["rearrangement"] = rearrangement_text(r)
+    return records
+
+
+def rearrangement_text(record: dict) -> str:
+    """Does the cation rearrange: the downhill shift (sink, ΔG, what is known of the barrier) and degenerate shifts.
+
+    >>> rearrangement_text({"shifts": [{"kind": "alkyl", "product_smiles": "[CH2+]C(C)C", "relaxed_to": "C[C+](C)C",
+    ...     "dG_kcal_mol": -16.0, "barrier_kcal_mol": None, "product_is_minimum": False}],
+    ...     "degenerate_shifts": ["hydride (H) C2→C1"]})
+    '→ C[C+](C)C via [CH2+]C(C)C, ΔG −16.0 kcal/mol, barrier unknown (intermediate not a minimum); degenerate: hydride (H) C2→C1'
+    """
+    from cationcalc.tasks.shifts import barrier_status
+
+    parts = []
+    shifts = record.get("shifts") or []
+    if shifts:
+        best = min(shifts, key=lambda s: s["dG_kcal_mol"])
+        end = best.get("relaxed_to") if best.get("relaxed_to") not in (None, "bridged") else best["product_smiles"]
+        via = f" via {best['product_smiles']}" if end != best["product_smiles"] else ""
+        status = best.get("barrier_status") or barrier_status(best)
+        if best.get("product_is_minimum") is False and best.get("barrier_kcal_mol") is None:
+            status = "barrier unknown (intermediate not a minimum)"
+        parts.append(f"→ {end}{via}, ΔG {best['dG_kcal_mol']:+.1f} kcal/mol, {status}".replace("ΔG +", "ΔG +")
+                     .replace("ΔG -", "ΔG −"))
+    elif record.get("shifts") is not None:
+        parts.append("no downhill 1,2-shift")
+    if record.get("degenerate_shifts"):
+        parts.append("degenerate: " + ", ".join(record["degenerate_shifts"]))
+    return "; ".join(parts)
+
+
+def _rank_key(key: str):
+    """Structurally flagged cations, then cations that are not minima, rank after the others."""
+    return lambda r: (structurally_flagged(r["cation_class"]), bool(r.get("rearranged")), r[key])
+
+
+def _merge_errors(failed: list[dict]) -> dict:
+    first = dict(failed[0])
+    first["error"] = "; ".join(dict.fromkeys(r["error"] for r in failed))
+    return first
+
+
+__all__ = ["prepare_ionize", "prepare_sites", "prepare_ladder", "collate", "attach_shifts", "rearrangement_text", "solvolysis_rates", "spearman_rho",
+           "SOLVATION_NOTE", "EQUILIBRIUM_NOTE", "LADDER_NOTE"]
