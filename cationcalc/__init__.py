@@ -8,6 +8,13 @@ not safety data.
 Thread counts of the numerical libraries are pinned to one per process before
 any engine is imported (parallelism is over molecules, one process per core);
 a user who sets OMP_NUM_THREADS themselves keeps their value.
+
+One function per task (:mod:`cationcalc.api`) is reachable from here and loaded
+on first use, so ``import cationcalc.chem.units`` stays cheap:
+
+>>> import cationcalc
+>>> cationcalc.hia.__module__
+'cationcalc.api'
 """
 
 from __future__ import annotations
@@ -20,4 +27,19 @@ _os.environ.setdefault("OMP_STACKSIZE", "256M")
 
 from cationcalc.about import SAFETY_NOTE, __version__  # noqa: E402  (after the thread pins)
 
-__all__ = ["SAFETY_NOTE", "__version__"]
+#: names served by cationcalc.api, imported the first time one of them is used
+_API = ("Records", "hia", "heterolysis", "thermo", "ionize", "sites", "ladder", "shifts", "rate")
+
+__all__ = ["SAFETY_NOTE", "__version__", *_API]
+
+
+def __getattr__(name: str) -> object:
+    if name in _API:
+        from cationcalc import api
+
+        return getattr(api, name)
+    raise AttributeError(f"module 'cationcalc' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_API))
