@@ -19,12 +19,17 @@ True
 from __future__ import annotations
 
 import math
+import os
 from collections import defaultdict
+from typing import TYPE_CHECKING, Callable
 
 from cationcalc.trust.calibration import error_statistics
 from cationcalc.trust.electrofuges import electrofugality_calibration, electrophilicity_calibration
 from cationcalc.compute.models import Settings
 from cationcalc.chem.reference import load_table
+
+if TYPE_CHECKING:  # pragma: no cover
+    from cationcalc.execution.store import ResultStore
 
 #: rows of the quick subset (one calibrated substrate in three media, the tertiary check, one negative control)
 QUICK = {("benzhydryl chloride", "80E20W"), ("benzhydryl chloride", "TFE"), ("benzhydryl bromide", "80E20W"),
@@ -36,8 +41,8 @@ def rate_rows(quick: bool = False) -> list[dict]:
     return [r for r in rows if (r["name"], r["medium"]) in QUICK] if quick else rows
 
 
-def run_rate_checks(settings: Settings | None = None, *, quick: bool = False, workers: int = 1, store=None,
-                    progress=None) -> dict:
+def run_rate_checks(settings: Settings | None = None, *, quick: bool = False, workers: int = 1,
+                    store: ResultStore | None = None, progress: Callable | None = None) -> dict:
     """Predict every published rate; statistics over the calibrated class, flags for the others."""
     from cationcalc.tasks.runner import run_task
 
@@ -131,7 +136,7 @@ def format_rate_checks(report: dict) -> list[str]:
     return lines
 
 
-def plot_rates(report: dict, path) -> object:
+def plot_rates(report: dict, path: str | os.PathLike) -> object:
     """Predicted against published lg k, calibrated and checked rows with error bars; controls as bounds."""
     import matplotlib
 

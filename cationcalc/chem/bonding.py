@@ -20,6 +20,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from numpy.typing import ArrayLike
 from ase.data import chemical_symbols, covalent_radii
 from rdkit import Chem, RDLogger
 
@@ -36,7 +37,7 @@ def bonds_from_mol(mol: Chem.Mol) -> frozenset[tuple[int, int]]:
     return frozenset(tuple(sorted((b.GetBeginAtomIdx(), b.GetEndAtomIdx()))) for b in mol.GetBonds())
 
 
-def bonds_from_geometry(numbers, positions_angstrom, factor: float = BOND_FACTOR) -> frozenset[tuple[int, int]]:
+def bonds_from_geometry(numbers: ArrayLike, positions_angstrom: ArrayLike, factor: float = BOND_FACTOR) -> frozenset[tuple[int, int]]:
     """Bonds from interatomic distances and covalent radii."""
     numbers = np.asarray(numbers, dtype=int)
     pos = np.asarray(positions_angstrom, dtype=float)
@@ -60,7 +61,7 @@ class BondingChange:
     def changed(self) -> bool:
         return bool(self.formed or self.broken)
 
-    def describe(self, numbers) -> str:
+    def describe(self, numbers: ArrayLike) -> str:
         def label(pair):
             a, b = pair
             return f"{chemical_symbols[numbers[a]]}{a}-{chemical_symbols[numbers[b]]}{b}"
@@ -121,7 +122,7 @@ def _closed_shell_smiles(mol: Chem.Mol, charge: int) -> str | None:
     return None
 
 
-def smiles_from_geometry(numbers, positions_angstrom, charge: int, factor: float = BOND_FACTOR) -> str | None:
+def smiles_from_geometry(numbers: ArrayLike, positions_angstrom: ArrayLike, charge: int, factor: float = BOND_FACTOR) -> str | None:
     """Closed-shell SMILES for a geometry with a given net charge, or None.
 
     Connectivity comes from covalent radii; bond orders from RDKit.  For a
@@ -166,7 +167,7 @@ def smiles_from_geometry(numbers, positions_angstrom, charge: int, factor: float
     return sorted(forms)[0][-1] if forms else None
 
 
-def compare_bonding(reference: frozenset, numbers, positions_angstrom, charge: int,
+def compare_bonding(reference: frozenset, numbers: ArrayLike, positions_angstrom: ArrayLike, charge: int,
                     factor: float = BOND_FACTOR) -> BondingChange:
     """What changed between the reference bond graph and the geometry's."""
     found = bonds_from_geometry(numbers, positions_angstrom, factor)

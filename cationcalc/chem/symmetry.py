@@ -40,6 +40,7 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 #: largest order of a finite point group (Ih)
 _MAX_GROUP_ORDER = 120
@@ -304,7 +305,7 @@ def _linear_group(labels: np.ndarray, centred: np.ndarray, tolerance: float) -> 
     return PointGroup("C∞v", 1, 1, False)
 
 
-def point_group(numbers, positions_angstrom, tolerance_angstrom: float = 0.1) -> PointGroup:
+def point_group(numbers: ArrayLike, positions_angstrom: ArrayLike, tolerance_angstrom: float = 0.1) -> PointGroup:
     """Schoenflies point group and rotational symmetry number of a molecule.
 
     ``numbers`` are atomic numbers (any per-atom labels work, e.g. symbols);
@@ -347,6 +348,6 @@ def point_group(numbers, positions_angstrom, tolerance_angstrom: float = 0.1) ->
     return PointGroup("C1", 1, 1, True)
 
 
-def symmetry_number(numbers, positions_angstrom, tolerance_angstrom: float = 0.1) -> int:
+def symmetry_number(numbers: ArrayLike, positions_angstrom: ArrayLike, tolerance_angstrom: float = 0.1) -> int:
     """Rotational symmetry number σ (order of the proper-rotation group)."""
     return point_group(numbers, positions_angstrom, tolerance_angstrom).symmetry_number

@@ -55,6 +55,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from cationcalc.chem.units import (
     AMU_KG,
@@ -95,14 +96,14 @@ def _as_masses(masses_amu, n_atoms: int) -> np.ndarray:
     return masses
 
 
-def centre_of_mass_angstrom(positions_angstrom, masses_amu) -> np.ndarray:
+def centre_of_mass_angstrom(positions_angstrom: ArrayLike, masses_amu: ArrayLike) -> np.ndarray:
     """Centre of mass (Å)."""
     positions = _as_positions(positions_angstrom)
     masses = _as_masses(masses_amu, len(positions))
     return masses @ positions / masses.sum()
 
 
-def inertia_tensor_amu_A2(positions_angstrom, masses_amu) -> np.ndarray:
+def inertia_tensor_amu_A2(positions_angstrom: ArrayLike, masses_amu: ArrayLike) -> np.ndarray:
     """3×3 inertia tensor about the centre of mass (amu Å²)."""
     positions = _as_positions(positions_angstrom)
     masses = _as_masses(masses_amu, len(positions))
@@ -111,7 +112,7 @@ def inertia_tensor_amu_A2(positions_angstrom, masses_amu) -> np.ndarray:
     return np.eye(3) * (masses @ r2) - np.einsum("i,ij,ik->jk", masses, r, r)
 
 
-def moments_of_inertia_amu_A2(positions_angstrom, masses_amu) -> np.ndarray:
+def moments_of_inertia_amu_A2(positions_angstrom: ArrayLike, masses_amu: ArrayLike) -> np.ndarray:
     """Principal moments of inertia (amu Å²), ascending.
 
     >>> moments_of_inertia_amu_A2([[0, 0, 0], [0, 0, 1.0]], [1.0, 1.0]).round(3)
@@ -121,7 +122,7 @@ def moments_of_inertia_amu_A2(positions_angstrom, masses_amu) -> np.ndarray:
     return np.clip(moments, 0.0, None)
 
 
-def is_linear(positions_angstrom, masses_amu, tol: float = LINEAR_TOLERANCE) -> bool:
+def is_linear(positions_angstrom: ArrayLike, masses_amu: ArrayLike, tol: float = LINEAR_TOLERANCE) -> bool:
     """True for a linear molecule: smallest/largest principal moment < ``tol``.
 
     A single atom is not linear (it has no rotations at all).
@@ -157,7 +158,7 @@ class VibrationalModes:
         return int(np.count_nonzero(self.frequencies_cm1 < 0.0))
 
 
-def rigid_body_vectors(positions_angstrom, masses_amu, linear: bool | None = None) -> np.ndarray:
+def rigid_body_vectors(positions_angstrom: ArrayLike, masses_amu: ArrayLike, linear: bool | None = None) -> np.ndarray:
     """Orthonormal mass-weighted translation/rotation vectors, shape (3N, n_rigid).
 
     n_rigid is 3 for an atom, 5 for a linear molecule, 6 otherwise. Built from
@@ -191,9 +192,9 @@ def _eigenvalue_to_cm1(eigenvalues_ev_A2_amu: np.ndarray) -> np.ndarray:
 
 
 def vibrational_analysis(
-    hessian_ev_per_A2,
-    masses_amu,
-    positions_angstrom,
+    hessian_ev_per_A2: ArrayLike,
+    masses_amu: ArrayLike,
+    positions_angstrom: ArrayLike,
     linear_tolerance: float = LINEAR_TOLERANCE,
 ) -> VibrationalModes:
     """Harmonic frequencies and normal modes with rigid-body motion removed.
@@ -261,20 +262,20 @@ class QuasiRRHO:
     average_moment_kg_m2: float = 1e-44
     damp_enthalpy: bool = False
 
-    def weights(self, frequencies_cm1) -> np.ndarray:
+    def weights(self, frequencies_cm1: ArrayLike) -> np.ndarray:
         """Damping weights w(ν) for positive wavenumbers."""
         nu = np.asarray(frequencies_cm1, dtype=float)
         return 1.0 / (1.0 + (self.cutoff_cm1 / nu) ** self.alpha)
 
 
-def harmonic_entropy_J_mol_K(frequencies_cm1, temperature_k: float) -> np.ndarray:
+def harmonic_entropy_J_mol_K(frequencies_cm1: ArrayLike, temperature_k: float) -> np.ndarray:
     """Per-mode harmonic-oscillator entropy (J/mol/K) for positive wavenumbers."""
     nu = np.asarray(frequencies_cm1, dtype=float)
     x = PLANCK_J_S * _CM1_TO_HZ * nu / (BOLTZMANN_J_K * temperature_k)
     return GAS_CONSTANT_J_MOL_K * (x / np.expm1(x) - np.log(-np.expm1(-x)))
 
 
-def harmonic_energy_J_mol(frequencies_cm1, temperature_k: float) -> tuple[np.ndarray, np.ndarray]:
+def harmonic_energy_J_mol(frequencies_cm1: ArrayLike, temperature_k: float) -> tuple[np.ndarray, np.ndarray]:
     """Per-mode (zero-point, thermal) harmonic energies (J/mol)."""
     nu = np.asarray(frequencies_cm1, dtype=float)
     quantum_J_mol = PLANCK_J_S * _CM1_TO_HZ * nu * AVOGADRO
@@ -282,7 +283,7 @@ def harmonic_energy_J_mol(frequencies_cm1, temperature_k: float) -> tuple[np.nda
     return 0.5 * quantum_J_mol, quantum_J_mol / np.expm1(x)
 
 
-def free_rotor_entropy_J_mol_K(frequencies_cm1, temperature_k: float,
+def free_rotor_entropy_J_mol_K(frequencies_cm1: ArrayLike, temperature_k: float,
                                average_moment_kg_m2: float = 1e-44) -> np.ndarray:
     """Per-mode free-rotor entropy of Grimme's quasi-RRHO (J/mol/K)."""
     nu_hz = np.asarray(frequencies_cm1, dtype=float) * _CM1_TO_HZ
@@ -292,7 +293,7 @@ def free_rotor_entropy_J_mol_K(frequencies_cm1, temperature_k: float,
     return GAS_CONSTANT_J_MOL_K * (0.5 + 0.5 * np.log(argument))
 
 
-def vibrational_entropy_J_mol_K(frequencies_cm1, temperature_k: float = 298.15,
+def vibrational_entropy_J_mol_K(frequencies_cm1: ArrayLike, temperature_k: float = 298.15,
                                 qrrho: QuasiRRHO | None = QuasiRRHO()) -> float:
     """Total vibrational entropy (J/mol/K) of the positive wavenumbers given.
 
@@ -349,7 +350,7 @@ def translational_entropy_J_mol_K(mass_amu: float, temperature_k: float = 298.15
     return GAS_CONSTANT_J_MOL_K * (np.log(volume_per_particle / thermal_wavelength_cubed) + 2.5)
 
 
-def rotational_entropy_J_mol_K(positions_angstrom, masses_amu, symmetry_number: int,
+def rotational_entropy_J_mol_K(positions_angstrom: ArrayLike, masses_amu: ArrayLike, symmetry_number: int,
                                temperature_k: float = 298.15,
                                linear: bool | None = None) -> float:
     """Rigid-rotor (classical, high-temperature) rotational entropy.
@@ -372,9 +373,9 @@ def rotational_entropy_J_mol_K(positions_angstrom, masses_amu, symmetry_number: 
 
 
 def thermochemistry(
-    frequencies_cm1,
-    masses_amu,
-    positions_angstrom,
+    frequencies_cm1: ArrayLike,
+    masses_amu: ArrayLike,
+    positions_angstrom: ArrayLike,
     symmetry_number: int,
     spin_multiplicity: int = 1,
     temperature_k: float = 298.15,
@@ -470,7 +471,7 @@ def standard_state_correction_kcal_mol(temperature_k: float = 298.15,
     return float(GAS_CONSTANT_J_MOL_K * temperature_k * np.log(ratio) * J_TO_KCAL)
 
 
-def boltzmann_ensemble(free_energies_kcal_mol, temperature_k: float = 298.15
+def boltzmann_ensemble(free_energies_kcal_mol: ArrayLike, temperature_k: float = 298.15
                        ) -> tuple[float, np.ndarray]:
     """Ensemble free energy G = −RT ln Σ exp(−G_i/RT) and the Boltzmann weights.
 

@@ -23,6 +23,7 @@ import argparse
 import difflib
 import re
 import sys
+from typing import NoReturn
 
 from cationcalc.compute.models import check_pressure_pa, check_temperature_k
 
@@ -55,7 +56,7 @@ class Parser(argparse.ArgumentParser):
         close = difflib.get_close_matches(word, self._known_words(), n=1, cutoff=0.6)
         return close[0] if close else None
 
-    def error(self, message: str):  # noqa: D401 - argparse's hook
+    def error(self, message: str) -> NoReturn:  # noqa: D401 - argparse's hook
         wrong = None
         match = re.search(r"invalid choice: '([^']*)'", message)
         if match:

@@ -52,8 +52,10 @@ from __future__ import annotations
 
 import time
 from dataclasses import asdict, dataclass, field
+from typing import Protocol
 
 import numpy as np
+from numpy.typing import ArrayLike
 from ase import Atoms
 from ase.build import minimize_rotation_and_translation
 from ase.constraints import FixBondLengths
@@ -64,6 +66,7 @@ from rdkit import Chem
 from cationcalc.chem import units
 from cationcalc.chem.bonding import bonds_from_mol, compare_bonding
 from cationcalc.engines import get_engine
+from cationcalc.engines.base import Engine
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.compute.optimize import EngineCalculator, optimize
 from cationcalc.chem.species import InputError, carbocation
@@ -72,6 +75,19 @@ try:  # ASE ≥ 3.23
     from ase.mep import NEB
 except ImportError:  # pragma: no cover - older ASE
     from ase.neb import NEB
+
+class ShiftStep(Protocol):
+    """What a barrier needs of one 1,2-shift: ``kind`` (hydride, alkyl, aryl or ring), the β-carbon the
+    group leaves (``from_atom``), the cationic carbon it moves to (``to_atom``) and the migrating atom
+    (for a hydride, a hydrogen in ``Chem.AddHs`` order), indices in ``Chem.MolFromSmiles(parent_smiles)``."""
+
+    kind: str
+    from_atom: int
+    to_atom: int
+    migrating_atom: int
+    parent_smiles: str
+    product_smiles: str
+
 
 #: images including both ends
 DEFAULT_IMAGES = 7
@@ -110,7 +126,7 @@ class Barrier:
         return out
 
 
-def xyz_text(numbers, positions, comment: str = "") -> str:
+def xyz_text(numbers: ArrayLike, positions: ArrayLike, comment: str = "") -> str:
     """An XYZ block (Å)."""
     lines = [str(len(numbers)), comment]
     for z, p in zip(numbers, np.asarray(positions, dtype=float)):
@@ -136,7 +152,7 @@ def _moving_atoms(mol: Chem.Mol, beta: int, group: int, kind: str) -> list[int]:
     return sorted(seen)
 
 
-def product_endpoint(parent: SpeciesResult, candidate, settings: Settings, engine=None,
+def product_endpoint(parent: SpeciesResult, candidate: ShiftStep, settings: Settings, engine: Engine | None = None,
                      accept_smiles: set[str] = frozenset()) -> tuple[np.ndarray, str]:
     """The product geometry in the parent's atom order; raises ValueError when it cannot be built.
 
@@ -212,7 +228,7 @@ def product_endpoint(parent: SpeciesResult, candidate, settings: Settings, engin
                      f"{candidate.product_smiles} on optimisation ({change.describe(list(numbers))})")
 
 
-def shift_barrier(parent: SpeciesResult, candidate, settings: Settings, *, engine=None,
+def shift_barrier(parent: SpeciesResult, candidate: ShiftStep, settings: Settings, *, engine: Engine | None = None,
                   n_images: int = DEFAULT_IMAGES, fmax: float = DEFAULT_FMAX,
                   max_steps: int = DEFAULT_MAX_STEPS, accept_smiles: set[str] = frozenset()) -> Barrier:
     """NEB barrier of one 1,2-shift of a cation that is a minimum (see the module docstring)."""

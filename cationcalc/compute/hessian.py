@@ -19,13 +19,14 @@ Example
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from cationcalc.engines.base import Engine
 
 DEFAULT_STEP_ANGSTROM = 0.005
 
 
-def numerical_hessian(numbers, positions_angstrom, engine: Engine, *, charge: int, multiplicity: int,
+def numerical_hessian(numbers: ArrayLike, positions_angstrom: ArrayLike, engine: Engine, *, charge: int, multiplicity: int,
                       solvent: str | None = None, step_angstrom: float = DEFAULT_STEP_ANGSTROM) -> np.ndarray:
     """Symmetrised central-difference Hessian in eV/Å² (3N × 3N)."""
     pos0 = np.asarray(positions_angstrom, dtype=float)

@@ -28,8 +28,10 @@ Example
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Sequence
 
 import numpy as np
+from numpy.typing import ArrayLike
 from ase import Atoms
 from ase.calculators.calculator import Calculator, all_changes
 from ase.optimize import BFGS, FIRE, LBFGS
@@ -65,7 +67,8 @@ class EngineCalculator(Calculator):
         self.solvent = solvent
         self.last: EngineResult | None = None
 
-    def calculate(self, atoms=None, properties=("energy",), system_changes=all_changes):
+    def calculate(self, atoms: Atoms | None = None, properties: Sequence[str] = ("energy",),
+                  system_changes: Sequence[str] = all_changes) -> None:
         super().calculate(atoms, properties, system_changes)
         result = self.engine.compute(self.atoms.numbers, self.atoms.positions, charge=self.charge,
                                      multiplicity=self.multiplicity, solvent=self.solvent)
@@ -85,7 +88,7 @@ class OptimizationResult:
     bond_orders: np.ndarray | None
 
 
-def optimize(numbers, positions_angstrom, engine: Engine, *, charge: int, multiplicity: int,
+def optimize(numbers: ArrayLike, positions_angstrom: ArrayLike, engine: Engine, *, charge: int, multiplicity: int,
              solvent: str | None = None, fmax: float = 0.01, max_steps: int = 500,
              max_step_angstrom: float = 0.2, optimizer: str = "LBFGS") -> OptimizationResult:
     """Relax a structure to max |F| < fmax (eV/Å) with an ASE optimiser; writes no files."""

@@ -13,13 +13,15 @@ Example
 
 from __future__ import annotations
 
+from typing import Any
+
 from cationcalc.engines.base import Engine, EngineError, EngineResult, SCFConvergenceError, UnknownSolventError
 from cationcalc.engines.solvents import normalise_solvent
 
 ENGINE_NAMES = ("tblite", "xtb")
 
 
-def get_engine(name: str = "tblite", **options) -> Engine:
+def get_engine(name: str = "tblite", **options: Any) -> Engine:
     """A fresh engine by name ('tblite' or 'xtb')."""
     key = str(name).lower()
     if key == "tblite":

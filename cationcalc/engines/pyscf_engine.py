@@ -34,11 +34,15 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass
-from typing import Sequence
+from typing import TYPE_CHECKING, Sequence
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from cationcalc.engines.base import EngineError
+
+if TYPE_CHECKING:  # pragma: no cover
+    import pyscf.gto
 
 INSTALL_HINT = "pip install 'cationcalc[dft]'"
 
@@ -151,8 +155,8 @@ class DFTResult:
     solvent_model: str | None = None
 
 
-def build_molecule(numbers: Sequence[int], positions_angstrom, *, charge: int, multiplicity: int, basis: str,
-                   what: str = "this species", max_memory_mb: float | None = None):
+def build_molecule(numbers: Sequence[int], positions_angstrom: ArrayLike, *, charge: int, multiplicity: int, basis: str,
+                   what: str = "this species", max_memory_mb: float | None = None) -> "pyscf.gto.Mole":
     """A built ``pyscf.gto.Mole`` (Å input, Cartesian coordinates, spherical basis)."""
     require_pyscf()
     from pyscf import gto
@@ -184,7 +188,7 @@ def count_basis_functions(numbers: Sequence[int], basis: str) -> int:
     return int(mol.nao_nr())
 
 
-def dft_single_point(numbers: Sequence[int], positions_angstrom, *, charge: int, multiplicity: int, xc: str,
+def dft_single_point(numbers: Sequence[int], positions_angstrom: ArrayLike, *, charge: int, multiplicity: int, xc: str,
                      basis: str, grid_level: int = 3, solvent: str | None = None, solvent_model: str | None = None,
                      max_cycle: int = 100, newton_max_cycle: int = 50, conv_tol: float = 1e-9,
                      threads: int | None = None, max_memory_mb: float | None = None,

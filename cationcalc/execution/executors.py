@@ -40,7 +40,7 @@ import signal
 import threading
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
-from typing import Callable, Iterable
+from typing import TYPE_CHECKING, Callable, Iterable, Iterator, Optional, Union
 
 from cationcalc.about import __version__
 
@@ -51,6 +51,15 @@ from pydantic import ValidationError
 from cationcalc.compute.models import Settings, SpeciesResult, species_key
 from cationcalc.compute.pipeline import ComputationError, compute_species
 from cationcalc.chem.species import InputError, Species
+
+if TYPE_CHECKING:  # pragma: no cover
+    import distributed
+
+    from cationcalc.execution.store import ResultStore
+
+#: where species are computed: None or 'processes' (the process pool), 'dask-local', a Dask address
+#: (tcp://host:8786) or an open distributed.Client
+Scheduler = Optional[Union[str, "distributed.Client"]]
 
 
 @dataclass(frozen=True)
@@ -93,7 +102,7 @@ def sigint_seen() -> bool:
 
 
 @contextlib.contextmanager
-def sigint_guard():
+def sigint_guard() -> Iterator[None]:
     """Remember Ctrl-C even when a library swallows the KeyboardInterrupt, and raise it at the end.
 
     RDKit's substructure search catches the interrupt, prints "Substructure
@@ -178,7 +187,8 @@ def default_workers() -> int:
 
 def compute_many(species_list: Iterable[Species], settings: Settings, workers: int = 1,
                  progress: Callable[[Species, SpeciesResult | SpeciesFailure], None] | None = None,
-                 store=None, scheduler=None) -> dict[Species, SpeciesResult | SpeciesFailure]:
+                 store: ResultStore | None = None, scheduler: Scheduler = None
+                 ) -> dict[Species, SpeciesResult | SpeciesFailure]:
     """Compute every distinct species; returns species → result or failure.
 
     ``store`` (a :class:`~cationcalc.execution.store.ResultStore`): stored species are
@@ -293,7 +303,7 @@ def stop_signal() -> str | None:
 
 
 @contextlib.contextmanager
-def terminate_as_interrupt():
+def terminate_as_interrupt() -> Iterator[None]:
     """Treat SIGTERM (how batch schedulers stop jobs) as Ctrl-C for the code inside.
 
     The handler re-sends SIGINT to this process, so whatever handles Ctrl-C at that moment
@@ -384,7 +394,7 @@ def _dask_client(scheduler, workers: int = 1):
 
 
 @contextlib.contextmanager
-def scheduler_context(scheduler=None, workers: int = 1):
+def scheduler_context(scheduler: Scheduler = None, workers: int = 1) -> Iterator[None]:
     """Every :func:`compute_many` inside uses ``scheduler`` (one Dask client for all of them)."""
     if scheduler in (None, "processes", "local"):
         token = _SCHEDULER.set(None)

@@ -17,8 +17,12 @@ True
 from __future__ import annotations
 
 import io
+from typing import TYPE_CHECKING
 
 from cationcalc.chem import units
+
+if TYPE_CHECKING:  # pragma: no cover
+    import matplotlib.figure
 
 #: reference durations drawn on the chart
 MARKS = ((units.SECONDS_PER_MINUTE, "1 min"), (units.SECONDS_PER_HOUR, "1 h"), (units.SECONDS_PER_DAY, "1 day"),
@@ -32,7 +36,7 @@ def _label(record: dict) -> str:
     return label
 
 
-def half_life_figure(records: list[dict]):
+def half_life_figure(records: list[dict]) -> "matplotlib.figure.Figure | None":
     """The matplotlib figure, or None when no record has a half-life."""
     import matplotlib
 

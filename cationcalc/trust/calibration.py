@@ -47,10 +47,15 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 from importlib import resources
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from cationcalc.about import __version__
+
+if TYPE_CHECKING:  # pragma: no cover
+    from cationcalc.compute.models import Settings
 
 #: the groups per-class residuals are reported for, in display order
 CLASS_GROUPS = ("alkyl", "allylic/benzylic", "aromatic", "heteroatom-stabilized", "other")
@@ -123,11 +128,11 @@ class LinearFit:
     n: int
     r: float
 
-    def predict(self, x):
+    def predict(self, x: ArrayLike) -> np.ndarray:
         return self.a * np.asarray(x, dtype=float) + self.b
 
 
-def fit_linear(x, y) -> LinearFit:
+def fit_linear(x: ArrayLike, y: ArrayLike) -> LinearFit:
     """Ordinary least squares y = a·x + b (needs at least two distinct x)."""
     x = np.asarray(x, dtype=float)
     y = np.asarray(y, dtype=float)
@@ -142,7 +147,7 @@ def fit_linear(x, y) -> LinearFit:
     return LinearFit(float(a), float(ym - a * xm), int(x.size), float(r))
 
 
-def loo_predictions(x, y) -> np.ndarray:
+def loo_predictions(x: ArrayLike, y: ArrayLike) -> np.ndarray:
     """Leave-one-out predictions: point i predicted by the line fitted without it (explicit refits)."""
     x = np.asarray(x, dtype=float)
     y = np.asarray(y, dtype=float)
@@ -155,12 +160,12 @@ def loo_predictions(x, y) -> np.ndarray:
     return out
 
 
-def loo_residuals(x, y) -> np.ndarray:
+def loo_residuals(x: ArrayLike, y: ArrayLike) -> np.ndarray:
     """LOO prediction minus observed y, point by point."""
     return loo_predictions(x, y) - np.asarray(y, dtype=float)
 
 
-def error_statistics(errors) -> dict:
+def error_statistics(errors: ArrayLike) -> dict:
     """n, MAE, RMSE, max |error| and mean (signed) error of an array of errors."""
     e = np.asarray(errors, dtype=float)
     if e.size == 0:
@@ -337,7 +342,7 @@ def stored_calibrations() -> tuple[Calibration, ...]:
         return tuple(_parse(list(csv.DictReader(h1)), list(csv.DictReader(h2))))
 
 
-def calibration_for(settings) -> Calibration | None:
+def calibration_for(settings: Settings) -> Calibration | None:
     """The stored calibration for the level of ``settings`` (method and solvent model + solvent), or None.
 
     The engine is not part of the key: tblite and xtb-python implement the
