@@ -32,7 +32,7 @@ DATA = Path(__file__).resolve().parent.parent / "cationcalc" / "data" / "cation_
 COLUMNS = ["cation_smiles", "level", "hia_kcal_mol", "hia_G_kcal_mol", "package_version", "computed"]
 
 
-def compute(solvents: list[str], store_path: str | None, workers: int) -> list[dict]:
+def compute(solvents: list[str], store_path: str | None, workers: int, refine: str | None = None) -> list[dict]:
     cations = {**{k: r["name"] for k, r in published_electrofugalities().items()},
                **{k: r["name"] for k, r in published_electrophilicities().items()}}
     store = ResultStore(store_path) if store_path else None
@@ -40,22 +40,27 @@ def compute(solvents: list[str], store_path: str | None, workers: int) -> list[d
     for solvent in solvents:
         settings = Settings(solvent=None if solvent == "none" else solvent)
         start = time.perf_counter()
-        records = run_task("hia", [(s, n) for s, n in cations.items()], settings, workers=workers, store=store)
-        print(f"{settings.level}: {len(records)} cations in {time.perf_counter() - start:.0f} s", file=sys.stderr)
+        options = {"refine": refine, "refine_log": lambda line: print(line, file=sys.stderr)} if refine else {}
+        records = run_task("hia", [(s, n) for s, n in cations.items()], settings, workers=workers, store=store,
+                           **options)
+        level = descriptor_level(solvent, refine)
+        print(f"{level}: {len(records)} cations in {time.perf_counter() - start:.0f} s", file=sys.stderr)
         for r in records:
             if r.get("error"):
                 print(f"  {r['name']}: {r['error']}", file=sys.stderr)
                 continue
-            rows.append({"cation_smiles": r["cation_smiles"], "level": settings.level,
+            rows.append({"cation_smiles": r["cation_smiles"], "level": level,
                          "hia_kcal_mol": r["hia_kcal_mol"], "hia_G_kcal_mol": r["hia_G_kcal_mol"],
                          "package_version": __version__, "computed": datetime.date.today().isoformat()})
     return rows
 
 
-def compare(solvents: list[str]) -> list[ScaleCalibration]:
+def compare(solvents: list[str], refine: str | None = None) -> list[ScaleCalibration]:
     out = []
-    for solvent in solvents:
-        level = descriptor_level(None if solvent == "none" else solvent)
+    levels = [descriptor_level(None if s == "none" else s) for s in solvents]
+    if refine:
+        levels += [descriptor_level(None if s == "none" else s, refine) for s in solvents]
+    for level in levels:
         for quantity in ("hia_kcal_mol", "hia_G_kcal_mol"):
             for scale, table, column in (("E_f", published_electrofugalities(), "E_f"),
                                          ("E", published_electrophilicities(), "E")):
@@ -71,10 +76,14 @@ def main() -> int:
     parser.add_argument("--solvents", nargs="+", default=["none", "water", "dichloromethane"])
     parser.add_argument("--store", default=None)
     parser.add_argument("--workers", type=int, default=2)
+    parser.add_argument("--refine", default=None, help="DFT level of the DFT//xTB descriptor, e.g. B3LYP-D3BJ/def2-SVP")
     parser.add_argument("--write", action="store_true", help="write cationcalc/data/cation_descriptors.csv")
     args = parser.parse_args()
-    rows = compute(args.solvents, args.store, args.workers)
+    rows = compute(args.solvents, args.store, args.workers, args.refine)
     if args.write:
+        levels = {r["level"] for r in rows}
+        with DATA.open(encoding="utf-8") as handle:
+            rows = [r for r in csv.DictReader(handle) if r["level"] not in levels] + rows
         with DATA.open("w", newline="", encoding="utf-8") as handle:
             writer = csv.DictWriter(handle, fieldnames=COLUMNS, lineterminator="\n")
             writer.writeheader()
@@ -85,7 +94,7 @@ def main() -> int:
         print(f"wrote {len(rows)} rows to {DATA}", file=sys.stderr)
     print("| scale | level | descriptor | n | slope | intercept | r | LOO MAE | LOO RMSE | LOO max |")
     print("|---|---|---|---|---|---|---|---|---|---|")
-    for cal in compare(args.solvents):
+    for cal in compare(args.solvents, args.refine):
         print(f"| {cal.scale} | {cal.level} | {cal.quantity} | {cal.n} | {cal.a:.4f} | {cal.b:.2f} | {cal.r:.3f} | "
               f"{cal.loo_mae:.2f} | {cal.loo_rmse:.2f} | {cal.loo_max:.2f} |")
     return 0

@@ -4,14 +4,22 @@ Both published scales are built on benzhydrylium ions: E_f (25 °C, the
 electrofuge side of lg k = s_f(N_f + E_f); ``data/electrofugality.csv``) and
 Mayr's E (20 °C, dichloromethane; ``data/mayr_electrophilicity.csv`` with the
 2012 revisions of ``data/electrophilicity_revisions.csv``).  Each is mapped
-linearly onto one computed stability descriptor, the HIA from isodesmic
-hydride exchange with tert-butyl at GFN2-xTB in the gas phase
-(:data:`DESCRIPTOR_SOLVENT`), whose values for the reference cations sit in
+linearly onto one computed stability descriptor, the gas-phase HIA from
+isodesmic hydride exchange with tert-butyl (:data:`DESCRIPTOR_SOLVENT`), at
+one of two levels, whose values for the reference cations sit in
 ``data/cation_descriptors.csv`` (written by benchmarks/electrofuge_calibration.py,
-which also prints the comparison of candidate descriptors).  The gas phase
-was chosen over ALPB water and dichloromethane (and over ΔG of R–Cl
-ionization) because it has the lowest leave-one-out error on the 22 published
-E_f and, unlike the solvated descriptors, transfers to the tert-butyl cation:
+which also prints the comparison of candidate descriptors):
+
+- DFT//xTB, :data:`DFT_DESCRIPTOR_LEVEL` single points on the GFN2-xTB
+  structures with GFN2-xTB thermal corrections: the lowest leave-one-out
+  error on the 22 published E_f, the level to use when PySCF is installed
+  (``rate --refine``);
+- GFN2-xTB alone: the level of the base install (no PySCF), faster, with a
+  larger leave-one-out error that the records carry into their uncertainty.
+
+The gas phase was chosen over ALPB water and dichloromethane (and over ΔG of
+R–Cl ionization) because it has the lowest leave-one-out error at GFN2-xTB
+and, unlike the solvated descriptors, transfers to the tert-butyl cation:
 tert-butyl chloride comes out within 0.2 log units of its published rates in
 water and 80E20W, where the ALPB(water) line is 5.7 log units off.
 
@@ -42,6 +50,8 @@ from cationcalc.chem.species import carbocation
 DESCRIPTOR_SOLVENT = "none"
 #: the descriptor column: HIA (ΔH, 298 K) by hydride exchange with tert-butyl
 DESCRIPTOR_QUANTITY = "hia_kcal_mol"
+#: the DFT level of the DFT//xTB descriptor (single points on GFN2-xTB structures; chosen by leave-one-out error)
+DFT_DESCRIPTOR_LEVEL = "B3LYP-D3BJ/def2-SVP"
 
 
 def canonical_cation(smiles: str) -> str:
@@ -107,8 +117,14 @@ def descriptor_rows() -> tuple[dict, ...]:
     return load_table("cation_descriptors")
 
 
-def descriptor_level(solvent: str = DESCRIPTOR_SOLVENT) -> str:
-    return "GFN2-xTB (gas)" if solvent in (None, "", "none") else f"GFN2-xTB/ALPB({solvent})"
+def descriptor_level(solvent: str | None = DESCRIPTOR_SOLVENT, refine: str | None = None) -> str:
+    """The level name of a descriptor as the records and the descriptor table write it.
+
+    >>> descriptor_level(), descriptor_level(refine="B3LYP-D3BJ/def2-SVP")
+    ('GFN2-xTB (gas)', 'B3LYP-D3BJ/def2-SVP//GFN2-xTB (gas)')
+    """
+    base = "GFN2-xTB (gas)" if solvent in (None, "", "none") else f"GFN2-xTB/ALPB({solvent})"
+    return f"{refine}//{base}" if refine else base
 
 
 def _descriptors(level: str, quantity: str) -> dict[str, float]:
@@ -184,10 +200,11 @@ class ElectrofugeEstimate:
         return 0.0 if self.E_source.startswith("published") else self.E_computed_uncertainty
 
 
-def estimate_electrofuge(cation_smiles: str, descriptor_kcal_mol: float) -> ElectrofugeEstimate:
-    """E_f and E of a cation from its descriptor (published values used where the cation is tabulated)."""
+def estimate_electrofuge(cation_smiles: str, descriptor_kcal_mol: float, level: str | None = None) -> ElectrofugeEstimate:
+    """E_f and E of a cation from its descriptor at ``level`` (default GFN2-xTB gas; published values used where
+    the cation is tabulated)."""
     key = canonical_cation(cation_smiles)
-    ef_cal, e_cal = electrofugality_calibration(), electrophilicity_calibration()
+    ef_cal, e_cal = electrofugality_calibration(level), electrophilicity_calibration(level)
     ef_computed = ef_cal.predict(descriptor_kcal_mol, key)
     e_computed = e_cal.predict(descriptor_kcal_mol, key)
     calibration_text = (f"computed: E_f = {ef_cal.a:.4f}·HIA + {ef_cal.b:.2f} ({ef_cal.level}, n {ef_cal.n}, "
@@ -209,6 +226,6 @@ def estimate_electrofuge(cation_smiles: str, descriptor_kcal_mol: float) -> Elec
                                low - 1.0 <= descriptor_kcal_mol <= high + 1.0)
 
 
-__all__ = ["DESCRIPTOR_SOLVENT", "DESCRIPTOR_QUANTITY", "ScaleCalibration", "ScaleMember", "ElectrofugeEstimate",
+__all__ = ["DESCRIPTOR_SOLVENT", "DESCRIPTOR_QUANTITY", "DFT_DESCRIPTOR_LEVEL", "ScaleCalibration", "ScaleMember", "ElectrofugeEstimate",
            "electrofugality_calibration", "electrophilicity_calibration", "estimate_electrofuge",
            "published_electrofugalities", "published_electrophilicities", "descriptor_level", "canonical_cation"]
