@@ -108,7 +108,7 @@ def test_citations_are_citations_and_status_is_a_separate_field():
     import csv
     from importlib import resources
 
-    from cationcalc.checks.literature import _trend
+    from cationcalc.checks.trends import _trend
     from cationcalc.chem.reference import hia_reference, load_table
 
     banned = ("from memory", "recalled", "not verified", "this session", "copied from", "shared/", "abstract")
