@@ -75,7 +75,9 @@ class SpeciesJob:
 
 
 @dataclass(eq=False)
-class _Conformer:
+class Conformer:
+    """One optimised conformer on its way through the steps (each step returns a new one)."""
+
     opt: OptimizationResult
     change: BondingChange
     positions: np.ndarray
@@ -91,7 +93,7 @@ class _Conformer:
 class Vibration:
     """One conformer after imaginary-mode following (and thermochemistry), the warnings and the engine calls."""
 
-    conformer: _Conformer
+    conformer: Conformer
     warnings: tuple[str, ...] = ()
     hessian_calls: int = 0
     optimization_calls: int = 0
@@ -101,8 +103,8 @@ class Vibration:
 class _BondingOutcome:
     """Which optimised conformers carry on, which were set aside, and whether the species relaxed."""
 
-    pool: list[_Conformer]
-    set_aside: list[_Conformer]
+    pool: list[Conformer]
+    set_aside: list[Conformer]
     rearranged: bool
     warnings: list[str]
 
@@ -111,16 +113,16 @@ class _BondingOutcome:
 class _Ensemble:
     """The Boltzmann ensemble of the conformers in the window (kcal/mol, J/(mol K))."""
 
-    window: list[_Conformer]
-    mirror_images: list[int]
+    window: list[Conformer]  #: sorted by energy
+    mirror_images: list[int]  #: 2 for a chiral conformer whose unsampled mirror image is counted
     e_min_ev: float
-    g_kcal: np.ndarray
+    g_kcal: np.ndarray  #: E + G correction of each conformer in the window
     weights: np.ndarray
     g_ens: float
     h_ens: float
     s_ens: float
     zpe: float
-    best: _Conformer
+    best: Conformer  #: the lowest in G
     standard_state_correction: float
 
 
@@ -172,7 +174,7 @@ def _screen(job: SpeciesJob, geometries: list[np.ndarray]) -> tuple[list[np.ndar
     return [g for _, _, g in sorted(screened, key=lambda t: (t[0], t[1]))[:keep]], len(geometries)
 
 
-def _optimise_and_guard(job: SpeciesJob, geometries: list[np.ndarray]) -> tuple[list[_Conformer], int]:
+def _optimise_and_guard(job: SpeciesJob, geometries: list[np.ndarray]) -> tuple[list[Conformer], int]:
     """Optimise each geometry and compare its bonds with the species asked for; returns the engine calls."""
     settings, engine = job.settings, job.engine
     optimised, calls = [], 0
@@ -182,11 +184,11 @@ def _optimise_and_guard(job: SpeciesJob, geometries: list[np.ndarray]) -> tuple[
                        optimizer=settings.optimizer, **job.engine_keywords)
         calls += engine.counters.calls - before
         change = compare_bonding(job.reference_bonds, job.numbers, opt.positions, job.species.charge)
-        optimised.append(_Conformer(opt, change, opt.positions, opt.energy_ev))
+        optimised.append(Conformer(opt, change, opt.positions, opt.energy_ev))
     return optimised, calls
 
 
-def _bonding_outcome(job: SpeciesJob, optimised: list[_Conformer]) -> _BondingOutcome:
+def _bonding_outcome(job: SpeciesJob, optimised: list[Conformer]) -> _BondingOutcome:
     """Converged conformers that kept their bonds carry on; only when none did, the relaxed species does."""
     sp, settings, numbers = job.species, job.settings, job.numbers
     converged = [c for c in optimised if c.opt.converged]
@@ -218,7 +220,7 @@ def _masses(numbers) -> np.ndarray:
     return np.array([atomic_masses[z] for z in numbers])
 
 
-def _is_duplicate(mol: Chem.Mol, a: _Conformer, b: _Conformer, numbers) -> bool:
+def _is_duplicate(mol: Chem.Mol, a: Conformer, b: Conformer, numbers) -> bool:
     """Same minimum: energies within 0.05 kcal/mol and symmetry-aware RMSD below 0.125 Å."""
     if abs(a.energy_ev - b.energy_ev) * units.EV_TO_KCAL_MOL > 0.05:
         return False
@@ -239,9 +241,9 @@ def _is_duplicate(mol: Chem.Mol, a: _Conformer, b: _Conformer, numbers) -> bool:
 
 
 def _distinct_in_window(mol: Chem.Mol, job: SpeciesJob,
-                        pool: list[_Conformer]) -> tuple[list[_Conformer], list[_Conformer]]:
+                        pool: list[Conformer]) -> tuple[list[Conformer], list[Conformer]]:
     """(distinct conformers by energy, those within the energy window of the lowest)."""
-    distinct: list[_Conformer] = []
+    distinct: list[Conformer] = []
     for c in sorted(pool, key=lambda c: c.energy_ev):
         if not any(_is_duplicate(mol, c, d, job.numbers) for d in distinct):
             distinct.append(c)
@@ -272,7 +274,7 @@ def saddle_warning(sp: Species, listing: str, attempts: int) -> str:
         "less certain (the imaginary mode is left out)"
 
 
-def vibrate(job: SpeciesJob, conf: _Conformer) -> Vibration:
+def vibrate(job: SpeciesJob, conf: Conformer) -> Vibration:
     """Hessian, imaginary-mode following and thermochemistry for one conformer (a new conformer, nothing mutated)."""
     if len(job.numbers) == 1:
         followed = Vibration(replace(conf, frequencies_cm1=np.zeros(0)))
@@ -300,8 +302,8 @@ def _displaced(positions: np.ndarray, vib: thermo.VibrationalModes, imaginary: n
     return displaced
 
 
-def _surviving_modes(job: SpeciesJob, conf: _Conformer, freqs: np.ndarray, listing: str,
-                     attempt: int) -> tuple[_Conformer, str]:
+def _surviving_modes(job: SpeciesJob, conf: Conformer, freqs: np.ndarray, listing: str,
+                     attempt: int) -> tuple[Conformer, str]:
     """The conformer (a saddle point when the modes are large) and the warning once mode following gave up."""
     if freqs[freqs < 0].min() <= -job.settings.imaginary_threshold_cm1:
         return replace(conf, note="saddle point"), saddle_warning(job.species, listing, attempt)
@@ -309,7 +311,7 @@ def _surviving_modes(job: SpeciesJob, conf: _Conformer, freqs: np.ndarray, listi
                   "displacements; counted as real low modes (|ν|) in the thermochemistry")
 
 
-def _follow_imaginary_modes(job: SpeciesJob, conf: _Conformer) -> Vibration:
+def _follow_imaginary_modes(job: SpeciesJob, conf: Conformer) -> Vibration:
     """Follow every imaginary mode downhill (displace, re-optimise tighter) until none is left or attempts run out.
 
     A methyl-rotation saddle is harmless; a mode that leads to new bonds is not, and is reported
@@ -353,7 +355,7 @@ def _follow_imaginary_modes(job: SpeciesJob, conf: _Conformer) -> Vibration:
     return Vibration(replace(conf, frequencies_cm1=freqs), tuple(warnings), hessian_calls, optimisation_calls)
 
 
-def _with_thermochemistry(job: SpeciesJob, conf: _Conformer) -> _Conformer:
+def _with_thermochemistry(job: SpeciesJob, conf: Conformer) -> Conformer:
     """The conformer with its point group and quasi-RRHO (or RRHO) thermochemistry."""
     settings, freqs = job.settings, conf.frequencies_cm1
     group = point_group(job.numbers, conf.positions, settings.symmetry_tolerance_angstrom)
@@ -374,16 +376,16 @@ def _with_thermochemistry(job: SpeciesJob, conf: _Conformer) -> _Conformer:
 # 7. the ensemble, 8. the records
 # ---------------------------------------------------------------------------------------------
 
-def _mirrored(conf: _Conformer) -> _Conformer:
+def _mirrored(conf: Conformer) -> Conformer:
     """The mirror image of a conformer (x → −x), same energy."""
-    return _Conformer(conf.opt, conf.change, conf.positions * np.array([-1.0, 1.0, 1.0]), conf.energy_ev)
+    return Conformer(conf.opt, conf.change, conf.positions * np.array([-1.0, 1.0, 1.0]), conf.energy_ev)
 
 
 def _has_stereocentre(mol: Chem.Mol) -> bool:
     return bool(Chem.FindMolChiralCenters(mol, includeUnassigned=True, useLegacyImplementation=False))
 
 
-def _mirror_images(mol: Chem.Mol, job: SpeciesJob, window: list[_Conformer]) -> list[int]:
+def _mirror_images(mol: Chem.Mol, job: SpeciesJob, window: list[Conformer]) -> list[int]:
     """2 for a chiral conformer of an achiral molecule whose mirror image was not sampled, else 1.
 
     Its mirror-image twin has the same G (gauche+ without gauche-, a P propeller without M).
@@ -395,7 +397,7 @@ def _mirror_images(mol: Chem.Mol, job: SpeciesJob, window: list[_Conformer]) -> 
             for c in window]
 
 
-def _ensemble(mol: Chem.Mol, job: SpeciesJob, vibrated: list[_Conformer]) -> _Ensemble:
+def _ensemble(mol: Chem.Mol, job: SpeciesJob, vibrated: list[Conformer]) -> _Ensemble:
     """Boltzmann-weighted G, H, S and ZPE; enantiomer mixing and the 1 atm → 1 mol/L step when asked for."""
     settings, temperature = job.settings, job.settings.temperature_k
     window = sorted(vibrated, key=lambda c: c.energy_ev)
@@ -421,7 +423,7 @@ def _ensemble(mol: Chem.Mol, job: SpeciesJob, vibrated: list[_Conformer]) -> _En
                      correction)
 
 
-def _conformer_records(job: SpeciesJob, distinct: list[_Conformer], ens: _Ensemble,
+def _conformer_records(job: SpeciesJob, distinct: list[Conformer], ens: _Ensemble,
                        outcome: _BondingOutcome) -> list[ConformerRecord]:
     """One record per distinct conformer (weights for those in the window), then those set aside."""
     records = []
