@@ -40,9 +40,10 @@ import pytest
 from rdkit import Chem
 from rdkit.Chem.rdMolDescriptors import CalcMolFormula
 
-from cationcalc.checks import literature as checks
-from cationcalc.checks.literature import (ISOMERS, TREND_CATIONS, alcohol_smiles, correlation_statistics, cumyl_smiles,
-                               reference_sets, trend_checks)
+from cationcalc.checks.reference_sets import ISOMERS, TREND_CATIONS, alcohol_smiles, cumyl_smiles, reference_sets
+from cationcalc.checks.statistics import correlation_statistics
+from cationcalc.checks.trends import trend_checks
+from cationcalc.cli import check_command as checks
 from cationcalc.chem.reference import load_table
 from cationcalc.chem.species import carbocation
 

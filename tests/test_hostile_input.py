@@ -252,7 +252,7 @@ def test_workflow_temperature_is_bounded_with_file_and_line(tmp_path, capsys):
 
 
 def test_no_nan_reaches_json_and_a_species_result_refuses_it(water_result):
-    from cationcalc.report.outputs import records_json
+    from cationcalc.report.files import records_json
 
     data = json.loads(records_json([{"x": float("nan"), "y": [1.0, float("inf")]}], {"study": "s"}))
     assert data["records"] == [{"x": None, "y": [1.0, None]}]
@@ -459,7 +459,7 @@ def test_pool_workers_exit_when_the_parent_is_killed(tmp_path):
 def test_newlines_in_names_do_not_corrupt_sdf_or_xyz(water_result):
     from rdkit import Chem
 
-    from cationcalc.report.outputs import structures_sdf, xyz_files
+    from cationcalc.report.files import structures_sdf, xyz_files
 
     prov = {"study": "s", "workflow_sha256": "0" * 64, "versions": {"cationcalc": "test"}}
     evil = "water\n$$$$\nM  END\r\n3\ninjected"
@@ -480,7 +480,7 @@ def test_csv_text_cells_cannot_become_formulas_but_numbers_stay_numbers():
     import csv
     import io
 
-    from cationcalc.report.outputs import csv_text
+    from cationcalc.report.files import csv_text
 
     records = [{"name": "=HYPERLINK(\"http://x\",\"y\")", "note": "+1 of 2", "who": "@SUM(A1)",
                 "dash": "-cmd|' /C calc'!A0", "dG_kcal_mol": -5.25, "text_number": "-1.5", "smiles": "C[C+](C)C"}]

@@ -74,7 +74,8 @@ def test_charge_cards_draw_the_relaxed_structure_and_the_centres_own_charge(gas)
     from rdkit import Chem
 
     from cationcalc.compute.pipeline import compute_species
-    from cationcalc.report.outputs import _centre_text, depiction_png, drawn_structure
+    from cationcalc.report.figures import depiction_png, drawn_structure
+    from cationcalc.report.html import _centre_text
     from cationcalc.chem.species import species
 
     propyl = compute_species(species("CC[CH2+]"), gas)
@@ -91,7 +92,7 @@ def test_charge_cards_draw_the_relaxed_structure_and_the_centres_own_charge(gas)
 
 
 def test_charge_palette_is_the_projects_own():
-    from cationcalc.report.outputs import CHARGE_COLOURS, CHARGE_SCALE, _charge_colour
+    from cationcalc.report.figures import CHARGE_COLOURS, CHARGE_SCALE, _charge_colour
 
     assert CHARGE_COLOURS == ("#13706b", "#ffffff", "#d97a00")
     r, g, b = _charge_colour(CHARGE_SCALE)
@@ -107,7 +108,7 @@ def test_citations_are_citations_and_status_is_a_separate_field():
     import csv
     from importlib import resources
 
-    from cationcalc.checks.literature import _trend
+    from cationcalc.checks.trends import _trend
     from cationcalc.chem.reference import hia_reference, load_table
 
     banned = ("from memory", "recalled", "not verified", "this session", "copied from", "shared/", "abstract")

@@ -12,7 +12,7 @@ import pytest
 
 from cationcalc.about import SAFETY_NOTE
 from cationcalc.chem import units
-from cationcalc.report.outputs import heavy_atom_charges, ladder_figure
+from cationcalc.report.figures import heavy_atom_charges, ladder_figure
 from cationcalc.execution.store import ResultStore
 from cationcalc.studies.workflow import run_study
 

@@ -181,7 +181,7 @@ def test_ctrl_c_keeps_what_finished_and_leaves_no_temporary_files(tmp_path, work
 
 @pytest.mark.parametrize("where", ["fsync", "replace"])
 def test_a_crash_while_writing_leaves_the_old_file_whole_and_no_temporary_file(tmp_path, monkeypatch, where):
-    from cationcalc.report import outputs as report
+    from cationcalc.report import files as report
 
     path = tmp_path / "results.json"
     path.write_bytes(b'{"old": true}\n')

@@ -22,9 +22,10 @@ from cationcalc.engines import get_engine
 from cationcalc.compute.hessian import numerical_hessian
 from cationcalc.compute.models import Settings
 from cationcalc.compute.optimize import OptimizationResult, optimize
-from cationcalc.compute.pipeline import _Conformer, _masses, _vibrate, compute_species
+from cationcalc.compute.pipeline import Conformer as _Conformer, _masses, compute_species
 from cationcalc.chem.species import Species, carbocation, species
 from cationcalc.chem.symmetry import point_group
+from conformer_probe import _vibrate
 
 #: JANAF standard state is 1 bar
 ONE_BAR = Settings(pressure_pa=100000.0)

@@ -38,7 +38,7 @@ from rdkit import Chem
 from cationcalc.chem import units
 from cationcalc.chem.leaving_groups import LeavingGroup, attachment_point, describe_library, find_leaving_groups
 from cationcalc.chem.reference import load_table
-from cationcalc.chem.species import Carbocation, InputError, Species, _freeze_hydrogens, carbocation, parse, species, split_bond
+from cationcalc.chem.species import Carbocation, InputError, Species, freeze_hydrogens, carbocation, parse, species, split_bond
 
 #: the skeleton of the default reference substrate (the attachment point is *)
 TERT_BUTYL = "CC(C)(C)*"
@@ -91,7 +91,7 @@ def carbonyl_protonation_sites(mol: Chem.Mol) -> list[int]:
 def protonate(mol: Chem.Mol, oxygen: int) -> Chem.Mol:
     """R–OH → R–OH₂⁺, R–O–R' → R–O(H)⁺–R' at one oxygen; atom indices unchanged."""
     rw = Chem.RWMol(mol)
-    _freeze_hydrogens(rw)
+    freeze_hydrogens(rw)
     atom = rw.GetAtomWithIdx(oxygen)
     atom.SetFormalCharge(1)
     atom.SetNumExplicitHs(atom.GetNumExplicitHs() + 1)
@@ -182,7 +182,7 @@ def _neutral_acid(departing: Chem.Mol, index: int) -> Chem.Mol:
     if partner is None:
         return departing
     rw = Chem.RWMol(departing)
-    _freeze_hydrogens(rw)
+    freeze_hydrogens(rw)
     o_minus, o_plus = rw.GetAtomWithIdx(index), rw.GetAtomWithIdx(partner.GetIdx())
     o_minus.SetFormalCharge(0)
     o_minus.SetNumExplicitHs(o_minus.GetNumExplicitHs() + 1)
@@ -216,7 +216,7 @@ def hydride_sites(text: str, *, force: bool = False) -> list[IonizationSite]:
             sites[by_rank[ranks[i]]] = _with_equivalent(sites[by_rank[ranks[i]]], i)
             continue
         rw = Chem.RWMol(mol)
-        _freeze_hydrogens(rw)
+        freeze_hydrogens(rw)
         centre = rw.GetAtomWithIdx(i)
         centre.SetNumExplicitHs(centre.GetNumExplicitHs() - 1)
         centre.SetFormalCharge(1)
@@ -286,7 +286,7 @@ def cation_class(cation: Carbocation) -> str:
 def _aromatic_with_hydrogen(mol: Chem.Mol, centre: int) -> bool:
     """True when putting H back on the σ-cation centre gives an aromatic ring atom (phenyl-type cation)."""
     rw = Chem.RWMol(mol)
-    _freeze_hydrogens(rw)
+    freeze_hydrogens(rw)
     atom = rw.GetAtomWithIdx(centre)
     atom.SetFormalCharge(0)
     atom.SetNumExplicitHs(atom.GetNumExplicitHs() + 1)
@@ -397,7 +397,7 @@ def reference_substrate(site: IonizationSite, skeleton: str = TERT_BUTYL) -> Ion
     departing = Chem.MolFromSmiles(site.departing.smiles)
     skel, dummy, carbon = attachment_point(skeleton)
     combined = Chem.RWMol(Chem.CombineMols(skel, departing))  # the skeleton keeps its atom indices
-    _freeze_hydrogens(combined)
+    freeze_hydrogens(combined)
     leaving = combined.GetAtomWithIdx(skel.GetNumAtoms() + site.departing_atom)
     leaving.SetFormalCharge(leaving.GetFormalCharge() + 1)
     combined.AddBond(carbon, leaving.GetIdx(), Chem.BondType.SINGLE)
@@ -415,7 +415,7 @@ def reference_substrate(site: IonizationSite, skeleton: str = TERT_BUTYL) -> Ion
 def _carbonyl_acid_reference(site: IonizationSite, skeleton: str) -> IonizationSite:
     """The skeleton's ester or carbamate of the same acid, protonated on its carbonyl oxygen as ``site`` is."""
     acid_mol = Chem.RWMol(Chem.MolFromSmiles(site.departing.smiles))
-    _freeze_hydrogens(acid_mol)
+    freeze_hydrogens(acid_mol)
     oxygen = acid_mol.GetAtomWithIdx(site.departing_atom)
     oxygen.SetNumExplicitHs(max(0, oxygen.GetNumExplicitHs() - 1))  # R–C(=O)OH → R–C(=O)O–*
     acid_mol.AddAtom(Chem.Atom(0))
@@ -442,7 +442,7 @@ def skeleton_cation_smiles(skeleton: str) -> str:
     """
     parsed, dummy, carbon = attachment_point(skeleton)
     mol = Chem.RWMol(parsed)
-    _freeze_hydrogens(mol)
+    freeze_hydrogens(mol)
     mol.GetAtomWithIdx(carbon).SetFormalCharge(1)
     mol.RemoveAtom(dummy)
     out = mol.GetMol()

@@ -139,7 +139,7 @@ def species(smiles: str, *, multiplicity: int | None = None, force: bool = False
     return Species(Chem.MolToSmiles(mol), charge, int(multiplicity))
 
 
-def _freeze_hydrogens(mol: Chem.RWMol) -> None:
+def freeze_hydrogens(mol: Chem.RWMol) -> None:
     """Make every atom's hydrogen count explicit so that bond edits keep it."""
     for atom in mol.GetAtoms():
         n_h = atom.GetTotalNumHs()
@@ -173,7 +173,7 @@ def _carbenium_form(mol: Chem.Mol, text: str) -> tuple[Chem.Mol, int]:
             continue
         rw = Chem.RWMol(mol)
         Chem.Kekulize(rw, clearAromaticFlags=True)
-        _freeze_hydrogens(rw)
+        freeze_hydrogens(rw)
         rw_bond = rw.GetBondBetweenAtoms(atom.GetIdx(), other.GetIdx())
         rw_bond.SetBondType(Chem.BondType.SINGLE if order == Chem.BondType.DOUBLE else Chem.BondType.DOUBLE)
         rw.GetAtomWithIdx(atom.GetIdx()).SetFormalCharge(0)
@@ -249,7 +249,7 @@ def split_bond(substrate: Chem.Mol, carbon: int, leaving_atom: int) -> tuple[Che
     departing groups alike.  Returns (cation, departing group) molecules.
     """
     rw = Chem.RWMol(substrate)
-    _freeze_hydrogens(rw)
+    freeze_hydrogens(rw)
     bond = rw.GetBondBetweenAtoms(carbon, leaving_atom)
     if bond is None or bond.GetBondType() != Chem.BondType.SINGLE:
         raise InputError("the leaving group must be joined to carbon by a single bond")

@@ -67,7 +67,9 @@ class EngineCounters:
 
 
 @dataclass
-class _Timer:
+class CallTimer:
+    """Counts one engine call and its wall time into the engine's counters (a context manager)."""
+
     counters: EngineCounters
     start: float = field(default=0.0)
 

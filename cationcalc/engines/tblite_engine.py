@@ -34,7 +34,7 @@ from cationcalc.engines.base import (
     EngineResult,
     SCFConvergenceError,
     UnknownSolventError,
-    _Timer,
+    CallTimer,
     check_finite,
 )
 from cationcalc.engines.solvents import ALPB_NAMES, GBSA_NAMES
@@ -105,7 +105,7 @@ class TBLiteEngine(CachedEngineState):
         numbers = tuple(int(z) for z in numbers)
         positions_bohr = np.asarray(positions_angstrom, dtype=float) / units.BOHR_ANGSTROM
         key = (numbers, int(charge), int(multiplicity), solvent_name)
-        with _Timer(self.counters):
+        with CallTimer(self.counters):
             if key != self._key or self._calc is None:
                 self._calc = self._new_calculator(numbers, positions_bohr, charge, multiplicity, solvent_name)
                 self._key = key

@@ -22,7 +22,7 @@ from typing import Sequence
 import numpy as np
 
 from cationcalc.chem import units
-from cationcalc.engines.base import CachedEngineState, EngineResult, SCFConvergenceError, UnknownSolventError, _Timer, check_finite
+from cationcalc.engines.base import CachedEngineState, EngineResult, SCFConvergenceError, UnknownSolventError, CallTimer, check_finite
 from cationcalc.engines.solvents import GBSA_NAMES
 
 
@@ -60,7 +60,7 @@ class XTBEngine(CachedEngineState):
         numbers = tuple(int(z) for z in numbers)
         positions_bohr = np.asarray(positions_angstrom, dtype=float) / units.BOHR_ANGSTROM
         key = (numbers, int(charge), int(multiplicity), solvent)
-        with _Timer(self.counters):
+        with CallTimer(self.counters):
             if key != self._key or self._calc is None:
                 calc = Calculator(get_method(self.method), np.array(numbers), positions_bohr,
                                   charge=float(charge), uhf=int(multiplicity) - 1)
