@@ -31,12 +31,14 @@ True
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 import io
+from typing import TYPE_CHECKING
 
 from cationcalc.chem import units
 from cationcalc.compute.models import SpeciesResult
+
+if TYPE_CHECKING:  # pragma: no cover
+    import matplotlib.figure
 
 #: the quantity a stability ladder is drawn for, per task (title, how to read it)
 LADDER_QUANTITIES = {
@@ -46,9 +48,6 @@ LADDER_QUANTITIES = {
     "ladder": ("dG_ion_kcal_mol", "ΔG of ionization per leaving group", "higher ΔG: harder to ionize"),
     "heterolysis": ("dG_het_kcal_mol", "ΔG of heterolysis R–X → R⁺ + X⁻", "higher ΔG: harder to ionize"),
 }
-
-if TYPE_CHECKING:  # pragma: no cover
-    import matplotlib.figure
 
 
 def png_bytes(fig) -> bytes:
