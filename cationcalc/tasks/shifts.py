@@ -61,6 +61,8 @@ from cationcalc.execution.executors import Interrupted, SpeciesFailure, compute_
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.chem.species import Carbocation, InputError, Species, carbocation
 from cationcalc.tasks.records import BatchInterrupted, record_base, species_profile
+from cationcalc.tasks.registry import TaskOptions, TaskSpec, option, register
+from cationcalc.tasks.views import CATION, SUBSTRATE, Column
 
 #: ΔG (kcal/mol) below −threshold flags a shift as a likely rearrangement (1 kcal/mol:
 #: about 1.7 RT at 298 K, i.e. > 80 % product at equilibrium, and above the spread of
@@ -778,6 +780,28 @@ def _add_barriers(record: dict, search: ShiftSearch, settings: Settings, options
     record.setdefault("profile", {})["barriers_s"] = round(total, 2)
 
 
-__all__ = ["ShiftCandidate", "ShiftSearch", "enumerate_shifts", "skipped_shifts", "classify_relaxation",
+class ShiftsOptions(TaskOptions):
+    depth: int = option(DEFAULT_DEPTH, "longest shift path searched (default {default})", ge=1)
+    threshold_kcal_mol: float = option(DEFAULT_THRESHOLD_KCAL_MOL, "ΔG (kcal/mol) below which a downhill shift is "
+                                       "flagged (default {default:g})", flag="--threshold")
+    ceiling_kcal_mol: float = option(DEFAULT_CEILING_KCAL_MOL, "highest intermediate (kcal/mol above the parent) "
+                                     "a path may pass (default {default:g})", flag="--ceiling")
+    barriers: bool = option(False, "NEB barrier for each flagged step (slow)")
+
+
+SHIFTS = register(TaskSpec(
+    name="shifts", help="1,2-shifts and ring expansions of carbocations, with driving forces", options=ShiftsOptions,
+    headline=None,
+    view=(SUBSTRATE, CATION, Column("sink_smiles", "most stable cation reached", "smiles"),
+          Column("sink_dG_kcal_mol", "ΔG to it (kcal/mol)", "value"),
+          Column("path_highest_kcal_mol", "highest point (kcal/mol)", "value"),
+          Column("degenerate", "degenerate shifts", get=lambda r: ", ".join(r.get("degenerate_shifts") or []))),
+    wide=(("name", "name"), ("cation_smiles", "cation"), ("parent_relaxation", "as optimised"),
+          ("flagged_summary", "downhill 1,2-shifts (ΔG kcal/mol)"), ("sink_smiles", "sink"),
+          ("sink_dG_kcal_mol", "ΔG to sink"), ("path_text", "path"), ("path_highest_kcal_mol", "highest point")),
+    title="1,2-shifts and rearrangements", report_title="does the cation rearrange?", run=run_shifts))
+
+
+__all__ = ["SHIFTS", "ShiftsOptions", "ShiftCandidate", "ShiftSearch", "enumerate_shifts", "skipped_shifts", "classify_relaxation",
            "run_shifts", "DEFAULT_THRESHOLD_KCAL_MOL", "DEFAULT_CEILING_KCAL_MOL",
            "DEFAULT_DEPTH", "DEFAULT_MAX_SPECIES", "KINDS"]
