@@ -382,7 +382,8 @@ class IonizeOptions(RefinableOptions):
                                         "or auto")
     acid: bool = option(False, "protonate alcohol/ether oxygens (R–OH → R–OH2+)")
     reference_substrate: str | None = option(None, "substrate SMILES for ΔΔG_ion (default: tert-butyl with the "
-                                                   "same leaving group)", flag="--reference")
+                                                   "same leaving group)", flag="--reference",
+                                             metavar="REFERENCE_SUBSTRATE")
     shifts: bool = option(True, "screen the cation formed for downhill 1,2-shifts",
                           cli_help="skip the screen for downhill 1,2-shifts of the cation formed")
     medium: str | None = option(None, "solvolysis medium for rate constants and half-lives (80E20W, '80% ethanol', "

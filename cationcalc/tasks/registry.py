@@ -35,11 +35,11 @@ REFINE_OPTIONS = ("refine", "refine_top_k", "refine_window_kcal_mol")
 
 
 def option(default: Any = ..., description: str = "", *, flag: str | None = None, cli_help: str | None = None,
-           comma_list: bool = False, **constraints) -> Any:
+           comma_list: bool = False, metavar: str | None = None, **constraints) -> Any:
     """A task option: default and description written once; ``flag`` names the command-line option when it
     is not ``--name-with-dashes``, ``cli_help`` words a negated flag (``--no-shifts``), ``comma_list`` reads
-    a list as one comma-separated argument.  ``{default}`` in the description is filled in."""
-    extra = {"flag": flag, "cli_help": cli_help, "comma_list": comma_list}
+    a list as one comma-separated argument, ``metavar`` names its value in the help (default: the flag).  ``{default}`` in the description is filled in."""
+    extra = {"flag": flag, "cli_help": cli_help, "comma_list": comma_list, "metavar": metavar}
     if "{default" in description and default is not ...:
         description = description.format(default=default)
     return Field(default, description=description, json_schema_extra={"cli": extra}, **constraints)
@@ -186,7 +186,7 @@ def spec(name: str) -> TaskSpec:
 def cli_meta(field) -> dict:
     """The command-line hints of an options field (see :func:`option`)."""
     extra = field.json_schema_extra if isinstance(field.json_schema_extra, dict) else {}
-    return extra.get("cli") or {"flag": None, "cli_help": None, "comma_list": False}
+    return extra.get("cli") or {"flag": None, "cli_help": None, "comma_list": False, "metavar": None}
 
 
 __all__ = ["TaskSpec", "TaskOptions", "StepContext", "RefinableOptions", "option", "register", "unregister", "specs",
