@@ -23,9 +23,9 @@ import json
 import re
 import sys
 import textwrap
-from collections.abc import Mapping
 
 from cationcalc.about import SAFETY_NOTE, __version__
+from cationcalc.tasks.registry import SpecField
 
 
 def _read_inputs(args) -> list[tuple[str, str]]:
@@ -84,30 +84,8 @@ def _settings(args):
                     qrrho=not args.rrho, enantiomer_mixing=args.mix_enantiomers)
 
 
-class _Wide(Mapping):
-    """Task name → (key, header) columns of the --wide table, as each task's spec declares them."""
-
-    def __getitem__(self, task: str) -> tuple[tuple[str, str], ...]:
-        from cationcalc.tasks.registry import specs
-
-        for declared in specs():
-            if declared.name == task:
-                return declared.wide
-        raise KeyError(task)
-
-    def __iter__(self):
-        from cationcalc.tasks.registry import task_names
-
-        return iter(task_names())
-
-    def __len__(self) -> int:
-        from cationcalc.tasks.registry import task_names
-
-        return len(task_names())
-
-
-#: the --wide table's columns of each task (cationcalc.tasks.registry)
-COLUMNS: Mapping[str, tuple[tuple[str, str], ...]] = _Wide()
+#: the --wide table's columns of each task, as its spec declares them (cationcalc.tasks.registry)
+COLUMNS = SpecField("wide")
 
 
 def _ionization_footer(task: str, records: list[dict]) -> list[str]:

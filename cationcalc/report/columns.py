@@ -26,9 +26,7 @@ Example
 
 from __future__ import annotations
 
-from collections.abc import Mapping
-
-from cationcalc.tasks.registry import specs, task_names
+from cationcalc.tasks.registry import SpecField
 from cationcalc.tasks.views import (SITE_TIERS, SUBSTRATE, VERDICT, Column, relaxed_label,  # noqa: F401
                                     site_tier)
 
@@ -36,24 +34,8 @@ from cationcalc.tasks.views import (SITE_TIERS, SUBSTRATE, VERDICT, Column, rela
 SMILES_WIDTH = 28
 
 
-class _Views(Mapping):
-    """Task name → reading view, read from the task registry (each task declares its own view)."""
-
-    def __getitem__(self, task: str) -> tuple[Column, ...]:
-        for spec in specs():
-            if spec.name == task:
-                return spec.view
-        raise KeyError(task)
-
-    def __iter__(self):
-        return iter(task_names())
-
-    def __len__(self) -> int:
-        return len(task_names())
-
-
 #: the reading view of each task, as its spec declares it (cationcalc.tasks.registry)
-VIEWS: Mapping[str, tuple[Column, ...]] = _Views()
+VIEWS = SpecField("view")
 
 
 def value_of(column: Column, record: dict):

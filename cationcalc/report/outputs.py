@@ -52,6 +52,7 @@ from pathlib import Path
 from cationcalc.about import SAFETY_NOTE, __version__
 from cationcalc.chem import units
 from cationcalc.compute.models import SpeciesResult
+from cationcalc.tasks.registry import SpecField
 
 #: libraries whose versions go into every output (the ones that determine or draw the numbers)
 LIBRARIES = ("tblite", "xtb", "rdkit", "ase", "numpy", "scipy", "pydantic", "PyYAML", "matplotlib")
@@ -626,10 +627,8 @@ def _centre_text(result: SpeciesResult) -> str:
     return f"most positive carbon C{centre}: own charge {own[centre]:+.2f} e, CH group charge {group:+.2f} e"
 
 
-TASK_TITLES = {"hia": "hydride-ion affinity", "heterolysis": "heterolysis R–X → R⁺ + X⁻",
-               "thermo": "thermochemistry", "ionize": "will it ionize? R–X → R⁺ + X",
-               "sites": "where does it ionize? (sites ranked)", "ladder": "which leaving group? (ladder)",
-               "shifts": "does the cation rearrange?", "rate": "how fast does it ionize? (rate, half-life)"}
+#: the report heading of each task, as its spec declares it
+TASK_TITLES = SpecField("report_title")
 
 
 def task_table_html(task: str, rows: list[dict]) -> str:

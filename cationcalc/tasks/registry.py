@@ -20,6 +20,7 @@ Example
 from __future__ import annotations
 
 import importlib
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, Callable
 
@@ -175,6 +176,44 @@ def task_names() -> list[str]:
     return [t.name for t in specs()]
 
 
+class TaskNames(Sequence):
+    """The names of the registered tasks (those ``keep`` accepts), read afresh on every use."""
+
+    def __init__(self, keep: Callable[[TaskSpec], bool] | None = None):
+        self._keep = keep
+
+    def _names(self) -> list[str]:
+        return [t.name for t in specs() if self._keep is None or self._keep(t)]
+
+    def __getitem__(self, index):
+        return self._names()[index]
+
+    def __len__(self) -> int:
+        return len(self._names())
+
+    def __repr__(self) -> str:
+        return repr(tuple(self._names()))
+
+
+class SpecField(Mapping):
+    """Task name → one attribute of its spec (``view``, ``wide``, ``report_title``), read afresh on every use."""
+
+    def __init__(self, attribute: str):
+        self._attribute = attribute
+
+    def __getitem__(self, name: str):
+        _load()
+        if name not in _REGISTRY:
+            raise KeyError(name)
+        return getattr(_REGISTRY[name], self._attribute)
+
+    def __iter__(self):
+        return iter(task_names())
+
+    def __len__(self) -> int:
+        return len(task_names())
+
+
 def spec(name: str) -> TaskSpec:
     """The spec of task ``name``; ValueError naming the tasks for an unknown one."""
     _load()
@@ -190,4 +229,4 @@ def cli_meta(field) -> dict:
 
 
 __all__ = ["TaskSpec", "TaskOptions", "StepContext", "RefinableOptions", "option", "register", "unregister", "specs",
-           "task_names", "spec", "keep", "with_defaults", "cli_meta", "REFINE_OPTIONS", "TASK_MODULES"]
+           "task_names", "TaskNames", "SpecField", "spec", "keep", "with_defaults", "cli_meta", "REFINE_OPTIONS", "TASK_MODULES"]

@@ -26,27 +26,11 @@ from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE
 from cationcalc.compute.models import Settings
 from cationcalc.execution.executors import Interrupted, SpeciesFailure, compute_many
 from cationcalc.tasks.records import BatchInterrupted, Prepared
-from cationcalc.tasks.registry import StepContext, TaskSpec, spec, specs
+from cationcalc.tasks.registry import StepContext, TaskNames, TaskSpec, spec
 
 
-class _RunnableTasks(Sequence):
-    """Names of the registered tasks this runner runs (those that prepare requests; shifts runs itself)."""
-
-    def _names(self) -> list[str]:
-        return [t.name for t in specs() if t.prepare is not None]
-
-    def __getitem__(self, index):
-        return self._names()[index]
-
-    def __len__(self) -> int:
-        return len(self._names())
-
-    def __repr__(self) -> str:
-        return repr(tuple(self._names()))
-
-
-#: the tasks :func:`run_task` runs, read from the registry
-TASKS: Sequence[str] = _RunnableTasks()
+#: the tasks :func:`run_task` runs, read from the registry (shifts runs itself)
+TASKS: Sequence[str] = TaskNames(lambda t: t.prepare is not None)
 
 
 def prepare(task: str, text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
