@@ -418,7 +418,7 @@ def main(argv: list[str] | None = None) -> int:
     problem = _check_engine(args)
     if problem is not None:
         return _usage_error(problem)
-    return _execute(args, task, items)
+    return _execute(args, items)
 
 
 def _parse(argv: list[str]):
@@ -530,7 +530,7 @@ def _progress(args):
     return progress
 
 
-def _execute(args, task, items: list[tuple[str, str]]) -> int:
+def _execute(args, items: list[tuple[str, str]]) -> int:
     """Compute (through the store when given), print, and the exit status."""
     from cationcalc.execution.executors import default_workers, stop_signal, terminate_as_interrupt
     from cationcalc.execution.store import ResultStore, StoreError
@@ -542,7 +542,7 @@ def _execute(args, task, items: list[tuple[str, str]]) -> int:
     try:
         store = ResultStore(args.store) if args.store else None
         with terminate_as_interrupt():
-            records = _run(args, task, items, settings, args.workers or default_workers(), progress, store)
+            records = _run(args, items, settings, args.workers or default_workers(), progress, store)
         interrupted = False
     except BatchInterrupted as exc:
         records, interrupted = exc.records, True
@@ -602,8 +602,11 @@ def _options(args, task) -> dict:
     return options
 
 
-def _run(args, task, items, settings, workers, progress, store) -> list[dict]:
+def _run(args, items, settings, workers, progress, store) -> list[dict]:
     """Compute the records of one command (raises BatchInterrupted after Ctrl-C or SIGTERM)."""
+    from cationcalc.tasks.registry import spec
+
+    task = spec(args.command)
     options = _options(args, task)
     common = dict(workers=workers, force=args.force, progress=progress, store=store)
     if task.run is not None:  # a task that runs itself (the shift search)
