@@ -150,12 +150,16 @@ def _compute_and_run(plan: Plan, store, bar: _Progress, prefetch: list[tuple[Set
     return records
 
 
+def _store_problem(plan: Plan, store) -> str:
+    if not store.write_error:
+        return ""
+    return (f"the result store {plan.store_path} could not be written ({store.write_error}); species "
+            "computed after that are in the outputs only")
+
+
 def _write(plan: Plan, records: list[dict], store) -> tuple[list[Path], str]:
     """The output files, and what could not be written ("" when all was)."""
-    problem = ""
-    if store.write_error:
-        problem = (f"the result store {plan.store_path} could not be written ({store.write_error}); species "
-                   "computed after that are in the outputs only")
+    problem = _store_problem(plan, store)
     from cationcalc.report.outputs import write_outputs
 
     try:
@@ -193,10 +197,7 @@ def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> 
                            reused=len(store.hit_keys - bar.keys), elapsed_s=time.perf_counter() - start,
                            interrupted=True)
         bar.stop()
-        files, problem = _write(plan, records, store) if write else ([], "")
-        if not write and store.write_error:
-            problem = (f"the result store {plan.store_path} could not be written ({store.write_error}); species "
-                       "computed after that are in the outputs only")
+        files, problem = _write(plan, records, store) if write else ([], _store_problem(plan, store))
         return Outcome(records=records, files=files, computed=bar.done, failed=bar.failed,
                        reused=len(store.hit_keys - bar.keys), elapsed_s=time.perf_counter() - start,
                        write_problem=problem)
