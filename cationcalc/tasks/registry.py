@@ -20,6 +20,7 @@ Example
 from __future__ import annotations
 
 import importlib
+import pkgutil
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any, Callable
@@ -28,7 +29,8 @@ from pydantic import BaseModel, ConfigDict, Field, field_validator, model_valida
 
 from cationcalc.tasks.views import Column
 
-#: the modules that declare the built-in tasks, in the order the command line and the workflow list them
+#: the modules that declare the built-in tasks, in the order the command line and the workflow list them (a task
+#: module not listed here is found too, and listed after these)
 TASK_MODULES = ("cationcalc.tasks.hia", "cationcalc.tasks.heterolysis", "cationcalc.tasks.thermo",
                 "cationcalc.tasks.ionization", "cationcalc.tasks.shifts", "cationcalc.tasks.rate")
 #: options every refinable task takes (DFT single points on the GFN2-xTB structures)
@@ -152,10 +154,14 @@ def unregister(name: str) -> None:
 
 
 def _load() -> None:
+    """Import the modules that declare tasks: the built-in ones in order, then any other module of this
+    package (a new task module registers itself without being listed anywhere)."""
     global _loaded
     if not _loaded:
         _loaded = True
-        for module in TASK_MODULES:
+        package = __name__.rsplit(".", 1)[0]
+        others = sorted(f"{package}.{m.name}" for m in pkgutil.iter_modules(importlib.import_module(package).__path__))
+        for module in (*TASK_MODULES, *(m for m in others if m not in TASK_MODULES)):
             importlib.import_module(module)
 
 
