@@ -15,7 +15,7 @@ from __future__ import annotations
 import textwrap
 
 from cationcalc.about import SAFETY_NOTE
-from cationcalc.tasks.registry import SpecField
+from cationcalc.tasks.registry import SpecField, spec as task_spec
 
 #: the --wide table's columns of each task, as its spec declares them (cationcalc.tasks.registry)
 COLUMNS = SpecField("wide")
@@ -64,9 +64,7 @@ def _ionization_footer(task: str, records: list[dict]) -> list[str]:
 
 
 def _title(task: str, first: dict) -> str:
-    from cationcalc.tasks.registry import spec
-
-    title = spec(task).title
+    title = task_spec(task).title
     if task == "rate":
         return f"{title} — E_f from HIA at {first.get('level', '')}, k at {first.get('rate_temperature_k')} K"
     return f"{title} — {first.get('level', '')}, {first.get('temperature_k', 298.15)} K"
@@ -194,7 +192,7 @@ def _print_footer(console, task: str, records: list[dict], first: dict) -> None:
         console.print("Standard state: 1 atm in the gas phase, 1 mol/L in solution (1 atm → 1 M applied once per species).")
     if task == "shifts":
         console.print("ΔG = G(product) − G(parent), kcal/mol; a shift is flagged when ΔG < −"
-                      f"{first.get('threshold_kcal_mol', 1.0)}; ⇒ marks a barrierless step (a structure that is not a "
+                      f"{first.get('threshold_kcal_mol', task_spec('shifts').defaults()['threshold_kcal_mol'])}; ⇒ marks a barrierless step (a structure that is not a "
                       "minimum); the highest point of the path is a lower bound to its barrier (--json: barriers).")
     console.print(f"[dim]{SAFETY_NOTE}[/dim]")
 
