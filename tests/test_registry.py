@@ -53,6 +53,19 @@ def test_every_task_is_a_command_and_a_workflow_task_with_the_same_defaults(task
     assert VIEWS[task.name] == task.view and TASK_TITLES[task.name] == task.report_title
 
 
+@pytest.mark.parametrize("task", specs(), ids=lambda t: t.name)
+def test_every_task_is_available_to_a_study_plan(task, tmp_path):
+    from cationcalc.studies.loading import load_workflow
+    from cationcalc.studies.plan import build_plan
+
+    required = "".join(f" {name}: [80E20W]," for name, f in task.options.model_fields.items() if f.is_required())
+    path = tmp_path / "one.yaml"
+    path.write_text(f"study: one\nspecies: ['C[C+](C)C']\ntasks:\n  - {task.name}: {{{required.rstrip(',')} }}\n")
+    planned = build_plan(load_workflow(path)).tasks
+    assert [t.name for t in planned] == [task.name]
+    assert planned[0].runner is not None and planned[0].items == [("C[C+](C)C", "")]
+
+
 def test_the_shift_defaults_and_the_anchor_are_written_once():
     shifts = spec("shifts").defaults()
     assert (shifts["depth"], shifts["threshold_kcal_mol"], shifts["ceiling_kcal_mol"]) == (3, 1.0, 25.0)
