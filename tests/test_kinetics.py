@@ -310,7 +310,7 @@ def test_docstring_examples_of_the_kinetics_modules_run():
     from cationcalc.trust import electrofuges, nucleofuges
     from cationcalc.chem import media as media_module
     from cationcalc.checks import rates as rate_checks
-    from cationcalc.report.outputs import rate_figures
+    from cationcalc.report import rate_figures
     from cationcalc.tasks import rate as rate_tasks
 
     for module in (kinetics, media_module, nucleofuges, electrofuges, rate_tasks, rate_figures, rate_checks):
