@@ -41,23 +41,25 @@ def _error(message: str) -> int:
 
 
 def _print_summary(records: list[dict]) -> None:
-    """One small table per task with its headline quantity (± error, and the verdict where there is one):
+    """One small table per task with its headline quantity (declared in the task's spec) (± error, and the verdict where there is one):
     name × solvent, sorted by the first solvent.  Headers come from the task's reading view."""
     from rich.console import Console
     from rich.markup import escape
     from rich.table import Table
 
     from cationcalc.report.columns import VIEWS, Column, cell
-    from cationcalc.report.outputs import LADDER_QUANTITIES, TASK_TITLES, _label
+    from cationcalc.report.outputs import TASK_TITLES, _label
+    from cationcalc.studies.schema import KNOWN_TASKS
+    from cationcalc.tasks.registry import spec
 
     console = Console(width=max(100, Console().width))
     for task in dict.fromkeys(r.get("task") for r in records):
         if task == "rate":  # name × medium: half-life and the verdict in time
             _print_rate_summary(console, [r for r in records if r.get("task") == "rate" and not r.get("error")])
             continue
-        if task not in LADDER_QUANTITIES:
+        key = spec(task).headline if task in KNOWN_TASKS else None
+        if key is None:
             continue
-        key = LADDER_QUANTITIES[task][0]
         column = next((c for c in VIEWS.get(task, ()) if c.key == key), None) or Column(key, key, "value")
         rows = [r for r in records if r.get("task") == task and r.get(key) is not None]
         if not rows:

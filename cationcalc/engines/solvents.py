@@ -118,3 +118,13 @@ def normalise_solvent(name: str | None) -> str | None:
         f"unknown solvent {name!r}: {hint}use 'none' for the gas phase or one of: "
         + ", ".join(sorted(ALPB_NAMES))
     )
+
+
+def check_gbsa_solvent(engine: str, solvent: str | None) -> None:
+    """Refuse a solvent xtb-python has no GBSA parameters for (tblite's ALPB knows every listed solvent).
+
+    ``solvent`` is a canonical name or None (gas phase); raises ValueError with the fix.
+    """
+    if engine == "xtb" and solvent is not None and solvent not in GBSA_NAMES:
+        raise ValueError(f"solvent {solvent!r} has no GBSA parameters in xtb-python; use --engine "
+                         f"tblite or one of: {', '.join(sorted(GBSA_NAMES))}")

@@ -1,11 +1,12 @@
 """What a chemist reads first: a short column list per task, shared by the terminal and report.html.
 
 ``VIEWS[task]`` is a tuple of :class:`Column` (record key, header in words
-with units, how to format it, and which key holds its ± error).  The
+with units, how to format it, and which key holds its ± error), as the
+task's spec declares it (:mod:`cationcalc.tasks.registry`).  The
 terminal's default table and the report's per-task tables use it; the full
 record stays in ``--json``, results.json and results.csv, and ``--wide``
-prints every column.  A new task (or a new quantity) is one more entry in
-``VIEWS``; :func:`cell` formats any column of any record.
+prints every column.  A new task declares its view in its spec;
+:func:`cell` formats any column of any record.
 
 Diagnostics (optimiser and mode-following remarks, warnings of the species
 behind a record) are counted in one short flag by :func:`note`
@@ -25,129 +26,16 @@ Example
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import Callable
+from cationcalc.tasks.registry import SpecField
+from cationcalc.tasks.views import (SITE_TIERS, SUBSTRATE, VERDICT, Column, relaxed_label,  # noqa: F401
+                                    site_tier)
 
 #: longest SMILES shown in a table cell; a longer one ends in "…" (the full one is in JSON/CSV)
 SMILES_WIDTH = 28
 
 
-@dataclass(frozen=True)
-class Column:
-    """One column of a reading view."""
-
-    key: str  #: record key (or a name for a derived column)
-    header: str  #: header in words, with units
-    kind: str = "text"  #: text | smiles | value | factor | int
-    error_key: str | None = None  #: record key of the ± error (value columns)
-    digits: int = 1
-    get: Callable[[dict], object] | None = None  #: derives the value when it is not one record key
-
-
-def _substrate(record: dict) -> str:
-    from cationcalc.chem.species import clipped
-
-    return record.get("name") or clipped(record.get("input") or "")
-
-
-def _short_group(name: str) -> str:
-    """A leaving group's short alias (Cl, OTs, OH2+) when it has one, else its name."""
-    from cationcalc.chem.leaving_groups import library
-
-    for g in library():
-        if g.name == name:
-            short = [a for a in g.aliases if len(a) <= 5]
-            return short[0] if short else name
-    return name
-
-
-def _site(record: dict) -> str:
-    atom = record.get("site_atom")
-    group = record.get("leaving_group") or ""
-    if atom is None:
-        return group
-    equivalent = record.get("equivalent_atoms") or [atom]
-    where = f"C{atom}" + (f" (×{len(equivalent)})" if len(equivalent) > 1 else "")
-    if group == "hydride":
-        return f"{where}–H"
-    return f"{where}–{_short_group(group)}" if group else where
-
-
-def _relaxed(record: dict) -> str:
-    return record.get("relaxed_cation_smiles") or record.get("relaxed_smiles") or ""
-
-
-#: site tiers of a ``sites`` scan (this project's labels and limits): a site whose gap to the best is
-#: within the error of that gap, or within a factor 10 in the equilibrium constant (1.4 kcal/mol at
-#: 298 K), is "leading"; within a factor 1000 (4.1 kcal/mol) "competing"; further away "minor"
-SITE_TIERS = (("leading", 1.4), ("competing", 4.1), ("minor", float("inf")))
-
-
-def site_tier(record: dict) -> str:
-    """'leading', 'competing' or 'minor' from the gap to the best site and the error of that gap.
-
-    >>> site_tier({"dG_ion_vs_best_kcal_mol": 3.0, "dG_ion_vs_best_uncertainty_kcal_mol": 3.2})
-    'leading'
-    >>> site_tier({"hia_vs_best_kcal_mol": 3.0, "hia_vs_best_uncertainty_kcal_mol": 0.5})
-    'competing'
-    """
-    for stem in ("dG_ion", "hia"):
-        gap = record.get(f"{stem}_vs_best_kcal_mol")
-        if isinstance(gap, (int, float)):
-            error = record.get(f"{stem}_vs_best_uncertainty_kcal_mol") or 0.0
-            if gap <= error:
-                return SITE_TIERS[0][0]
-            return next(name for name, limit in SITE_TIERS if gap <= limit)
-    return ""
-
-
-SUBSTRATE = Column("substrate", "substrate", get=_substrate)
-SITE = Column("site", "site (atom–group)", get=_site)
-CATION = Column("cation_smiles", "cation", "smiles")
-VERDICT = Column("verdict", "verdict")
-REARRANGEMENT = Column("rearrangement", "rearranges? (sink, ΔG kcal/mol, barrier)")
-DG_ION = Column("dG_ion_kcal_mol", "ΔG_ion (kcal/mol)", "value", "dG_ion_uncertainty_kcal_mol")
-DDG_ION = Column("ddG_ion_vs_tert_butyl_kcal_mol", "ΔΔG_ion vs t-Bu (kcal/mol)", "value",
-                 "ddG_ion_vs_tert_butyl_uncertainty_kcal_mol")
-HIA = Column("hia_kcal_mol", "HIA (kcal/mol)", "value", "hia_uncertainty_kcal_mol")
-HALF_LIFE = Column("half_life_text", "half-life")
-LG_K = Column("lg_k_ion_text", "lg k (s⁻¹) ± u")
-
-
-def _nucleofugality(record: dict) -> str:
-    if record.get("N_f") is None:
-        return ""
-    return f"{record['N_f']:.2f} / {record['s_f']:.2f}" + (" (est.)" if record.get("nucleofugality_estimated") else "")
-
-#: the reading view of each task; a new task adds one entry
-VIEWS: dict[str, tuple[Column, ...]] = {
-    "hia": (SUBSTRATE, CATION, HIA,
-            Column("hia_G_kcal_mol", "ΔG-HIA (kcal/mol)", "value", "hia_G_uncertainty_kcal_mol"),
-            Column("relaxed", "relaxed to", "smiles", get=_relaxed)),
-    "heterolysis": (SUBSTRATE, Column("leaving_group", "leaving group"),
-                    Column("dG_het_kcal_mol", "ΔG_het (kcal/mol)", "value", "dG_het_uncertainty_kcal_mol"),
-                    Column("dH_het_kcal_mol", "ΔH_het (kcal/mol)", "value", "dH_het_uncertainty_kcal_mol")),
-    "thermo": (Column("smiles", "species", "smiles"), Column("G_kcal_mol", "G − E (kcal/mol)", "value", digits=2),
-               Column("S_J_mol_K", "S (J/mol/K)", "value"), Column("point_group", "point group")),
-    "ionize": (SUBSTRATE, SITE, CATION, DG_ION, DDG_ION, HALF_LIFE, VERDICT, REARRANGEMENT),
-    "sites": (SUBSTRATE, Column("rank", "rank", "int"), Column("tier", "site tier", get=site_tier), SITE, CATION,
-              DG_ION,
-              Column("dG_ion_vs_best_kcal_mol", "ΔG_ion − best (kcal/mol)", "value",
-                     "dG_ion_vs_best_uncertainty_kcal_mol"),
-              HIA, Column("hia_vs_best_kcal_mol", "HIA − best (kcal/mol)", "value", "hia_vs_best_uncertainty_kcal_mol"),
-              VERDICT, REARRANGEMENT),
-    "ladder": (SUBSTRATE, Column("rank", "rank", "int"), Column("leaving_group", "leaving group"), DG_ION,
-               Column("dG_ion_vs_best_kcal_mol", "ΔG_ion − best (kcal/mol)", "value"),
-               Column("solvolysis_k_rel", "published k_rel (solvolysis)", "factor"),
-               Column("half_life_rank", "rank by rate", "int"), HALF_LIFE, LG_K, VERDICT),
-    "rate": (SUBSTRATE, SITE, Column("medium", "medium"), HALF_LIFE, LG_K,
-             Column("E_f", "E_f", "value", digits=2), Column("N_f", "N_f / s_f", get=_nucleofugality),
-             Column("lifetime_text", "cation lifetime"), Column("applicability_status", "model"), VERDICT),
-    "shifts": (SUBSTRATE, CATION, Column("sink_smiles", "most stable cation reached", "smiles"),
-               Column("sink_dG_kcal_mol", "ΔG to it (kcal/mol)", "value"),
-               Column("path_highest_kcal_mol", "highest point (kcal/mol)", "value"),
-               Column("degenerate", "degenerate shifts", get=lambda r: ", ".join(r.get("degenerate_shifts") or []))),
-}
+#: the reading view of each task, as its spec declares it (cationcalc.tasks.registry)
+VIEWS = SpecField("view")
 
 
 def value_of(column: Column, record: dict):
@@ -183,7 +71,7 @@ def note(record: dict) -> str:
     if record.get("error"):
         parts.append("error")
     if record.get("rearranged"):
-        parts.append(f"relaxed to {short_smiles(_relaxed(record) or 'a bridged structure', 24)}")
+        parts.append(f"relaxed to {short_smiles(relaxed_label(record) or 'a bridged structure', 24)}")
     count = len(record.get("warnings") or [])
     if count:
         parts.append(f"{count} note{'s' if count > 1 else ''}")

@@ -24,12 +24,10 @@ from cationcalc.report.figures import (CHARGE_COLOURS, CHARGE_SCALE, LADDER_QUAN
 from cationcalc.report.files import (csv_text, finite, library_versions, names_by_smiles, one_line, provenance,
                                      read_results, records_csv, records_json, spreadsheet_safe, structures_sdf,
                                      study_species, write_atomic, xyz_files)
+from cationcalc.tasks.registry import SpecField
 from cationcalc.report.html import TABLE_COLUMNS, report_html, task_table_html
 
-TASK_TITLES = {"hia": "hydride-ion affinity", "heterolysis": "heterolysis R–X → R⁺ + X⁻",
-               "thermo": "thermochemistry", "ionize": "will it ionize? R–X → R⁺ + X",
-               "sites": "where does it ionize? (sites ranked)", "ladder": "which leaving group? (ladder)",
-               "shifts": "does the cation rearrange?", "rate": "how fast does it ionize? (rate, half-life)"}
+TASK_TITLES = SpecField("report_title")
 
 #: the name the run command imports for a record's label (:func:`cationcalc.report.figures.record_label`)
 _label = record_label

@@ -29,6 +29,9 @@ Example
 from __future__ import annotations
 
 import math
+from functools import partial
+
+from pydantic import field_validator
 
 from cationcalc.chem import units
 from cationcalc.chem.ionization import (TERT_BUTYL, IonizationSite, equilibrium_factor, heterolysis_sites, hydride_sites,
@@ -37,8 +40,14 @@ from cationcalc.chem.leaving_groups import attach, ladder_groups, leaving_group 
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.compute.properties import heterolysis_energy, hydride_ion_affinity
 from cationcalc.tasks.records import Prepared, record_base, collect_warnings, species_profile
-from cationcalc.chem.reference import hia_reference, load_table
+from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE, hia_reference, load_table
 from cationcalc.chem.species import InputError, Species, hydride_adduct
+from cationcalc.execution.refine import refine_task_records
+from cationcalc.tasks.rate import medium_rates
+from cationcalc.tasks.registry import RefinableOptions, StepContext, TaskSpec, option, register, with_defaults
+from cationcalc.tasks.views import (CATION, DDG_ION, DG_ION, HALF_LIFE, HIA, LG_K, REARRANGEMENT, SITE, SUBSTRATE,
+                                    VERDICT, Column, site_tier)
+from cationcalc.trust.uncertainty import annotate
 
 SOLVATION_NOTE = ("implicit solvent ({model}) misses specific solvation of the anion (hydrogen bonds), which "
                   "matters most for small anions (F⁻, Cl⁻, OH⁻) in protic solvents")
@@ -116,7 +125,7 @@ def _heterolysis_prepared(site: IonizationSite, base: dict, settings: Settings,
 
 def _hydride_prepared(site: IonizationSite, base: dict, settings: Settings) -> Prepared:
     """HIA of the cation formed by hydride abstraction at one site (anchor: tert-butyl)."""
-    anchor = hia_reference("tert-butyl")
+    anchor = hia_reference(DEFAULT_HIA_REFERENCE)
     base = {**base, **_site_fields(site), "reference": anchor.name, "reference_hia_kcal_mol": anchor.hia_kcal_mol,
             "reference_source": anchor.source, "reference_status": anchor.status}
     ref_cation = Species(anchor.cation_smiles, 1, 1)
@@ -357,5 +366,121 @@ def _merge_errors(failed: list[dict]) -> dict:
     return first
 
 
-__all__ = ["prepare_ionize", "prepare_sites", "prepare_ladder", "collate", "attach_shifts", "rearrangement_text", "solvolysis_rates", "spearman_rho",
+# ---------------------------------------------------------------- the task specs
+
+
+def _known_medium(value):
+    if value is None:
+        return None
+    from cationcalc.chem.media import medium
+
+    return medium(str(value)).code  # InputError (a ValueError) lists the known media
+
+
+class IonizeOptions(RefinableOptions):
+    leaving_group: str = option("auto", "leaving group to break (name from the library, e.g. OTs, chloride), "
+                                        "or auto")
+    acid: bool = option(False, "protonate alcohol/ether oxygens (R–OH → R–OH2+)")
+    reference_substrate: str | None = option(None, "substrate SMILES for ΔΔG_ion (default: tert-butyl with the "
+                                                   "same leaving group)", flag="--reference",
+                                             metavar="REFERENCE_SUBSTRATE")
+    shifts: bool = option(True, "screen the cation formed for downhill 1,2-shifts",
+                          cli_help="skip the screen for downhill 1,2-shifts of the cation formed")
+    medium: str | None = option(None, "solvolysis medium for rate constants and half-lives (80E20W, '80% ethanol', "
+                                      "'97% TFE (w/w)', water, …); the verdict then speaks in time")
+
+    _medium = field_validator("medium")(classmethod(lambda cls, v: _known_medium(v)))
+
+
+class SitesOptions(RefinableOptions):
+    acid: bool = option(False, "protonate alcohol/ether oxygens first")
+    hydride: bool = option(False, "scan hydride abstraction at every C–H even when a leaving group is present")
+    shifts: bool = option(True, "screen each cation formed for downhill 1,2-shifts",
+                          cli_help="skip the screen for downhill 1,2-shifts of the cations formed")
+
+
+class LadderOptions(RefinableOptions):
+    groups: list[str] | None = option(None, "comma-separated leaving groups to include (default: the whole library)",
+                                      comma_list=True)
+    medium: str | None = option(None, "solvolysis medium: half-life per leaving group where its N_f is published")
+
+    _medium = field_validator("medium")(classmethod(lambda cls, v: _known_medium(v)))
+
+
+def _ionize(text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
+    o = with_defaults(IonizeOptions, options)
+    return prepare_ionize(text, name, settings, leaving_group=o["leaving_group"], acid=o["acid"],
+                          reference=o["reference_substrate"], force=force)
+
+
+def _sites(text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
+    o = with_defaults(SitesOptions, options)
+    return prepare_sites(text, name, settings, acid=o["acid"], hydride=o["hydride"], force=force)
+
+
+def _ladder(text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
+    return prepare_ladder(text, name, settings, groups=with_defaults(LadderOptions, options)["groups"], force=force)
+
+
+def screen_shifts(records: list[dict], options: dict, ctx: StepContext) -> list[dict]:
+    """Step after collation: the downhill 1,2-shifts of every cation formed, when ``shifts`` is on."""
+    if not options.get("shifts"):
+        return records
+    from cationcalc.execution.executors import SpeciesFailure
+
+    known = {sp: r for sp, r in ctx.results.items() if not isinstance(r, SpeciesFailure)}
+    return attach_shifts(records, known, ctx.settings, workers=ctx.workers, store=ctx.store, progress=ctx.progress,
+                         threshold_kcal_mol=options.get("shift_threshold_kcal_mol"))
+
+
+_WIDE_SHIFT = ("shift_summary", "downhill 1,2-shift (ΔG)")
+_HOOKS = dict(refine=refine_task_records, uncertainty=annotate)
+
+IONIZE = register(TaskSpec(
+    name="ionize", help="ΔG of ionization R–X → R⁺ + X in a solvent, with a verdict", options=IonizeOptions,
+    headline="dG_ion_kcal_mol",
+    view=(SUBSTRATE, SITE, CATION, DG_ION, DDG_ION, HALF_LIFE, VERDICT, REARRANGEMENT),
+    wide=(("name", "name"), ("substrate_smiles", "substrate"), ("leaving_group", "X"), ("site_atom", "atom"),
+          ("cation_class", "cation"), ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"),
+          ("dG_ion_xtb_kcal_mol", "ΔG_ion GFN2-xTB"), ("ddG_ion_kcal_mol", "ΔΔG_ion"),
+          ("equilibrium_factor", "K/K_ref (equilibrium)"), ("half_life_text", "half-life"),
+          ("verdict", "verdict"), _WIDE_SHIFT),
+    title="ionization R–X → R⁺ + X", report_title="will it ionize? R–X → R⁺ + X",
+    prepare=_ionize, collate=partial(collate, "ionize"), after=(screen_shifts, medium_rates), **_HOOKS))
+
+SITES = register(TaskSpec(
+    name="sites", help="rank every ionization site of a substrate (or every C–H by HIA)", options=SitesOptions,
+    headline="dG_ion_kcal_mol",
+    view=(SUBSTRATE, Column("rank", "rank", "int"), Column("tier", "site tier", get=site_tier), SITE, CATION,
+          DG_ION,
+          Column("dG_ion_vs_best_kcal_mol", "ΔG_ion − best (kcal/mol)", "value",
+                 "dG_ion_vs_best_uncertainty_kcal_mol"),
+          HIA, Column("hia_vs_best_kcal_mol", "HIA − best (kcal/mol)", "value", "hia_vs_best_uncertainty_kcal_mol"),
+          VERDICT, REARRANGEMENT),
+    wide=(("name", "name"), ("rank", "#"), ("site_atom", "atom"), ("equivalent_atoms", "equivalent"),
+          ("leaving_group", "X"), ("cation_smiles", "cation"), ("cation_class", "class"),
+          ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"), ("dG_ion_vs_best_kcal_mol", "Δ vs #1"),
+          ("hia_kcal_mol", "HIA kcal/mol"), ("hia_vs_best_kcal_mol", "Δ vs #1"), ("verdict", "verdict"),
+          _WIDE_SHIFT),
+    title="ionization sites", report_title="where does it ionize? (sites ranked)",
+    prepare=_sites, collate=partial(collate, "sites"), after=(screen_shifts,), calibrated=True, **_HOOKS))
+
+LADDER = register(TaskSpec(
+    name="ladder", help="ΔG_ion of one skeleton (written with *) for every leaving group", options=LadderOptions,
+    headline="dG_ion_kcal_mol",
+    view=(SUBSTRATE, Column("rank", "rank", "int"), Column("leaving_group", "leaving group"), DG_ION,
+          Column("dG_ion_vs_best_kcal_mol", "ΔG_ion − best (kcal/mol)", "value"),
+          Column("solvolysis_k_rel", "published k_rel (solvolysis)", "factor"),
+          Column("half_life_rank", "rank by rate", "int"), HALF_LIFE, LG_K, VERDICT),
+    wide=(("name", "name"), ("rank", "#"), ("leaving_group", "leaving group"),
+          ("substrate_smiles", "substrate"), ("dG_ion_kcal_mol", "ΔG_ion kcal/mol"),
+          ("dG_ion_vs_best_kcal_mol", "Δ vs #1"), ("solvolysis_k_rel", "k_rel (solvolysis)"),
+          ("half_life_rank", "# by rate"), ("half_life_text", "half-life"), ("lg_k_ion", "lg k"),
+          ("verdict", "verdict")),
+    title="leaving-group ladder", report_title="which leaving group? (ladder)",
+    prepare=_ladder, collate=partial(collate, "ladder"), after=(medium_rates,), **_HOOKS))
+
+
+__all__ = ["IONIZE", "SITES", "LADDER", "IonizeOptions", "SitesOptions", "LadderOptions", "screen_shifts",
+           "prepare_ionize", "prepare_sites", "prepare_ladder", "collate", "attach_shifts", "rearrangement_text", "solvolysis_rates", "spearman_rho",
            "SOLVATION_NOTE", "EQUILIBRIUM_NOTE", "LADDER_NOTE"]

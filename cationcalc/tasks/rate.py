@@ -35,6 +35,7 @@ from __future__ import annotations
 import math
 from functools import lru_cache
 
+from pydantic import field_validator
 from rdkit import Chem
 
 from cationcalc.chem import units
@@ -51,7 +52,9 @@ from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.trust.nucleofuges import Nucleofugality, nucleofugality
 from cationcalc.compute.properties import hydride_ion_affinity
 from cationcalc.tasks.records import Prepared, record_base, collect_warnings, species_profile
-from cationcalc.chem.reference import hia_reference, load_table
+from cationcalc.tasks.registry import StepContext, TaskOptions, TaskSpec, option, register
+from cationcalc.tasks.views import HALF_LIFE, LG_K, SITE, SUBSTRATE, VERDICT, Column, nucleofugality_label
+from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE, hia_reference, load_table
 from cationcalc.chem.species import InputError, Species, carbocation, hydride_adduct
 
 #: log units added in quadrature for a cation class the calibration has not been checked on (project choice:
@@ -135,7 +138,7 @@ def tert_butyl_check() -> list[dict]:
     """
     from cationcalc.chem.media import medium
 
-    anchor = hia_reference("tert-butyl")
+    anchor = hia_reference(DEFAULT_HIA_REFERENCE)
     est = estimate_electrofuge(anchor.cation_smiles, anchor.hia_kcal_mol)
     out = []
     for row in load_table("solvolysis_rates"):
@@ -325,13 +328,13 @@ def prepare_rate(text: str, name: str, settings: Settings, *, medium: Medium, te
 def _electrofuge_estimate(cation_smiles: str, by_role: dict[str, SpeciesResult]) -> ElectrofugeEstimate:
     """E_f and E of a cation from the results of its descriptor species (roles as in _descriptor_needs)."""
     hia = hydride_ion_affinity(by_role["cation"], by_role["adduct"], by_role["reference_cation"],
-                               by_role["reference_adduct"], hia_reference("tert-butyl"))
+                               by_role["reference_adduct"], hia_reference(DEFAULT_HIA_REFERENCE))
     return estimate_electrofuge(cation_smiles, hia.hia_kcal_mol)
 
 
 def _descriptor_needs(cation_smiles: str) -> dict[str, Species]:
     """The cation, its hydride adduct and the tert-butyl pair: the species of the HIA descriptor."""
-    anchor = hia_reference("tert-butyl")
+    anchor = hia_reference(DEFAULT_HIA_REFERENCE)
     cation = carbocation(cation_smiles, force=True)
     return {"cation": Species(cation.smiles, 1, 1), "adduct": hydride_adduct(cation),
             "reference_cation": Species(anchor.cation_smiles, 1, 1),
@@ -423,5 +426,60 @@ def collate_rates(records: list[dict]) -> list[dict]:
     return ok + failed
 
 
-__all__ = ["prepare_rate", "collate_rates", "add_rates", "rate_footer", "rate_options", "kinetic_fields", "lifetime_fields", "applicability", "rate_class",
+def medium_rates(records: list[dict], options: dict, ctx: StepContext) -> list[dict]:
+    """Step after collation (ionize, ladder): rate constants and half-lives when a ``medium`` is given."""
+    if options.get("medium") is None:
+        return records
+    return add_rates(ctx.task, records, ctx.settings, options["medium"],
+                     options.get("rate_temperature_k", ctx.settings.temperature_k), workers=ctx.workers,
+                     store=ctx.store, progress=ctx.progress, force=ctx.force)
+
+
+# ---------------------------------------------------------------- the task spec
+
+
+def _known_media(value) -> list[str]:
+    from cationcalc.chem.media import medium
+
+    values = [value] if isinstance(value, str) else list(value or [])
+    return [medium(str(v)).code for v in values]  # InputError (a ValueError) lists the known media
+
+
+class RateOptions(TaskOptions):
+    medium: list[str] = option(..., "solvolysis medium as the trade writes it: 80E20W, '80% ethanol', "
+                                    "'ethanol/water 80:20', '97% TFE (w/w)', acetone, water", min_length=1)
+    temperature_k: float = option(ELECTROFUGE_TEMPERATURE_K, "temperature in K for k and the half-life "
+                                  "(273.15–423.15; default {default})", flag="--temperature")
+    leaving_group: str = option("auto", "leaving group to break (chloride, bromide, …), or auto")
+
+    _medium = field_validator("medium", mode="before")(classmethod(lambda cls, v: _known_media(v)))
+    _temperature = field_validator("temperature_k")(classmethod(lambda cls, v: check_temperature(v)))
+
+
+def _prepare(text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
+    options = rate_options(options)
+    return prepare_rate(text, name, settings, medium=options["medium"], temperature_k=options["rate_temperature_k"],
+                        leaving_group=options.get("leaving_group", "auto"), force=force)
+
+
+def _collate(records: list[dict], settings: Settings) -> list[dict]:
+    return collate_rates(records)
+
+
+RATE = register(TaskSpec(
+    name="rate", help="rate constant, half-life and cation lifetime of R–X in a solvolysis medium",
+    options=RateOptions, headline="lg_k_ion",
+    view=(SUBSTRATE, SITE, Column("medium", "medium"), HALF_LIFE, LG_K,
+          Column("E_f", "E_f", "value", digits=2), Column("N_f", "N_f / s_f", get=nucleofugality_label),
+          Column("lifetime_text", "cation lifetime"), Column("applicability_status", "model"), VERDICT),
+    wide=(("name", "name"), ("substrate_smiles", "substrate"), ("leaving_group", "X"), ("medium", "medium"),
+          ("k_ion_per_s", "k s⁻¹"), ("lg_k_ion_text", "lg k ± u"), ("half_life_text", "half-life"),
+          ("half_life_range_text", "range (± u)"), ("E_f", "E_f"), ("N_f", "N_f"), ("s_f", "s_f"),
+          ("lifetime_text", "cation lifetime"), ("applicability_status", "model"), ("verdict", "verdict")),
+    title="ionization rate R–X → R⁺ + X⁻", report_title="how fast does it ionize? (rate, half-life)",
+    prepare=_prepare, collate=_collate, fixed_level=descriptor_settings, one_pass_per="medium",
+    level_options=False))
+
+
+__all__ = ["RATE", "RateOptions", "medium_rates", "prepare_rate", "collate_rates", "add_rates", "rate_footer", "rate_options", "kinetic_fields", "lifetime_fields", "applicability", "rate_class",
            "tert_butyl_check", "descriptor_settings", "check_temperature", "UNCALIBRATED_CLASS_LG", "RATE_NOTE"]

@@ -39,6 +39,8 @@ from cationcalc.chem.species import InputError, Species, carbocation
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.execution.executors import Interrupted, compute_many
 from cationcalc.tasks.records import BatchInterrupted, record_base, species_profile
+from cationcalc.tasks.registry import TaskOptions, TaskSpec, option, register
+from cationcalc.tasks.views import CATION, SUBSTRATE, Column
 from cationcalc.tasks.shift_search import (DEFAULT_BEAM, DEFAULT_CEILING_KCAL_MOL, DEFAULT_DEPTH, DEFAULT_MAX_SPECIES,
                                            SearchEdge, ShiftSearch, saddle_target)
 
@@ -357,6 +359,28 @@ def _add_barriers(record: dict, search: ShiftSearch, settings: Settings, options
     record.setdefault("profile", {})["barriers_s"] = round(total, 2)
 
 
-__all__ = ["ShiftCandidate", "ShiftSearch", "enumerate_shifts", "skipped_shifts", "classify_relaxation",
-           "run_shifts", "barrier_status", "DEFAULT_THRESHOLD_KCAL_MOL", "DEFAULT_CEILING_KCAL_MOL",
-           "DEFAULT_DEPTH", "DEFAULT_MAX_SPECIES", "DEFAULT_BEAM", "KINDS"]
+class ShiftsOptions(TaskOptions):
+    depth: int = option(DEFAULT_DEPTH, "longest shift path searched (default {default})", ge=1)
+    threshold_kcal_mol: float = option(DEFAULT_THRESHOLD_KCAL_MOL, "ΔG (kcal/mol) below which a downhill shift is "
+                                       "flagged (default {default:g})", flag="--threshold")
+    ceiling_kcal_mol: float = option(DEFAULT_CEILING_KCAL_MOL, "highest intermediate (kcal/mol above the parent) "
+                                     "a path may pass (default {default:g})", flag="--ceiling")
+    barriers: bool = option(False, "NEB barrier for each flagged step (slow)")
+
+
+SHIFTS = register(TaskSpec(
+    name="shifts", help="1,2-shifts and ring expansions of carbocations, with driving forces", options=ShiftsOptions,
+    headline=None,
+    view=(SUBSTRATE, CATION, Column("sink_smiles", "most stable cation reached", "smiles"),
+          Column("sink_dG_kcal_mol", "ΔG to it (kcal/mol)", "value"),
+          Column("path_highest_kcal_mol", "highest point (kcal/mol)", "value"),
+          Column("degenerate", "degenerate shifts", get=lambda r: ", ".join(r.get("degenerate_shifts") or []))),
+    wide=(("name", "name"), ("cation_smiles", "cation"), ("parent_relaxation", "as optimised"),
+          ("flagged_summary", "downhill 1,2-shifts (ΔG kcal/mol)"), ("sink_smiles", "sink"),
+          ("sink_dG_kcal_mol", "ΔG to sink"), ("path_text", "path"), ("path_highest_kcal_mol", "highest point")),
+    title="1,2-shifts and rearrangements", report_title="does the cation rearrange?", run=run_shifts))
+
+
+__all__ = ["SHIFTS", "ShiftsOptions", "ShiftCandidate", "ShiftSearch", "enumerate_shifts", "skipped_shifts",
+           "classify_relaxation", "run_shifts", "barrier_status", "DEFAULT_THRESHOLD_KCAL_MOL",
+           "DEFAULT_CEILING_KCAL_MOL", "DEFAULT_DEPTH", "DEFAULT_MAX_SPECIES", "DEFAULT_BEAM", "KINDS"]
