@@ -49,7 +49,9 @@ from cationcalc.chem import units
 from cationcalc.chem.reference import load_table
 from cationcalc.chem.species import Species, carbocation
 from cationcalc.compute.models import Settings
-from cationcalc.trust.calibration import calibration_for, fit_calibration
+from cationcalc.execution.executors import Progress
+from cationcalc.execution.store import ResultStore
+from cationcalc.trust.calibration import Calibration, calibration_for, fit_calibration
 
 # ------------------------------------------------------------------ computing
 
@@ -101,8 +103,9 @@ def _pkr_values(rs: ReferenceSet, entries, settings: Settings, workers, store, p
 
 # ------------------------------------------------------------------ driver
 
-def run_checks(settings: Settings | None = None, *, quick: bool = False, workers: int = 1, store=None,
-               sets: list[str] | None = None, progress=None) -> dict:
+def run_checks(settings: Settings | None = None, *, quick: bool = False, workers: int = 1,
+               store: ResultStore | None = None,
+               sets: list[str] | None = None, progress: Progress | None = None) -> dict:
     """Recompute the reference sets and trends; returns the report as a dict (see :func:`format_report`)."""
     settings = settings or Settings()
     start = time.perf_counter()
@@ -195,7 +198,7 @@ def _evaluate_set(rs: ReferenceSet, entries: tuple[Entry, ...], hia: dict[str, d
     return evaluate_correlation(rs, entries, values, s, cal)
 
 
-def calibration_from_report(report: dict, settings: Settings, *, fit_date: str | None = None):
+def calibration_from_report(report: dict, settings: Settings, *, fit_date: str | None = None) -> Calibration:
     """The calibration (HIA_exp ≈ a·HIA_calc + b) fitted to the gas-HIA set of a full check report."""
     gas = report["sets"]["gas_hia"]
     rows = [{"name": r["name"], "cation_smiles": carbocation(r["smiles"]).smiles, "cation_class": r["cation_class"],

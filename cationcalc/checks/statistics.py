@@ -20,6 +20,7 @@ Example
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 
 import numpy as np
 from scipy.stats import spearmanr
@@ -28,15 +29,15 @@ from cationcalc.checks.reference_sets import Entry, ReferenceSet
 from cationcalc.chem import units
 from cationcalc.chem.species import carbocation
 from cationcalc.compute.models import Settings
-from cationcalc.trust.calibration import (CLASS_GROUPS, calibration_for, cation_group, error_statistics, fit_linear,
+from cationcalc.trust.calibration import (CLASS_GROUPS, Calibration, calibration_for, cation_group, error_statistics, fit_linear,
                                           loo_predictions)
 
-def absolute_statistics(calc, exp) -> dict:
+def absolute_statistics(calc: Sequence[float], exp: Sequence[float]) -> dict:
     """Errors calc − exp: n, MAE, RMSE, max, mean (kcal/mol)."""
     return error_statistics(np.asarray(calc, float) - np.asarray(exp, float))
 
 
-def correlation_statistics(exp, calc) -> dict:
+def correlation_statistics(exp: Sequence[float], calc: Sequence[float]) -> dict:
     """Computed against experiment: slope d(calc)/d(exp), intercept, Pearson r, Spearman ρ."""
     exp = np.asarray(exp, float)
     calc = np.asarray(calc, float)
@@ -64,7 +65,7 @@ def _entry_row(entry: Entry, calc: float | None, record: dict | None, error: str
     return row
 
 
-def evaluate_absolute(rs: ReferenceSet, entries, hia: dict[str, dict], settings: Settings) -> dict:
+def evaluate_absolute(rs: ReferenceSet, entries: Sequence[Entry], hia: dict[str, dict], settings: Settings) -> dict:
     """One absolute set (same quantity, kcal/mol): rows, raw and LOO-calibrated errors, per class, worst five."""
     rows, used = [], []
     for e in entries:
@@ -113,8 +114,8 @@ def evaluate_absolute(rs: ReferenceSet, entries, hia: dict[str, dict], settings:
     return out
 
 
-def evaluate_correlation(rs: ReferenceSet, entries, values: dict[str, tuple[float | None, dict | None, str | None]],
-                          settings: Settings, calibration=None) -> dict:
+def evaluate_correlation(rs: ReferenceSet, entries: Sequence[Entry], values: dict[str, tuple[float | None, dict | None, str | None]],
+                          settings: Settings, calibration: Calibration | None = None) -> dict:
     """One correlation set (experiment against a computed proxy): rows, regression, worst five."""
     rows, used = [], []
     for e in entries:

@@ -60,6 +60,8 @@ if TYPE_CHECKING:  # pragma: no cover
 #: where species are computed: None or 'processes' (the process pool), 'dask-local', a Dask address
 #: (tcp://host:8786) or an open distributed.Client
 Scheduler = Optional[Union[str, "distributed.Client"]]
+#: called once per finished species (with its result or failure), e.g. to advance a progress bar
+Progress = Callable[[Species, "SpeciesResult | SpeciesFailure"], None]
 
 
 @dataclass(frozen=True)
@@ -186,7 +188,7 @@ def default_workers() -> int:
 
 
 def compute_many(species_list: Iterable[Species], settings: Settings, workers: int = 1,
-                 progress: Callable[[Species, SpeciesResult | SpeciesFailure], None] | None = None,
+                 progress: Progress | None = None,
                  store: ResultStore | None = None, scheduler: Scheduler = None
                  ) -> dict[Species, SpeciesResult | SpeciesFailure]:
     """Compute every distinct species; returns species → result or failure.

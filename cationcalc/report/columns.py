@@ -26,6 +26,8 @@ Example
 
 from __future__ import annotations
 
+from typing import Any
+
 from cationcalc.tasks.registry import SpecField
 from cationcalc.tasks.views import (SITE_TIERS, SUBSTRATE, VERDICT, Column, relaxed_label,  # noqa: F401
                                     site_tier)
@@ -38,7 +40,7 @@ SMILES_WIDTH = 28
 VIEWS = SpecField("view")
 
 
-def value_of(column: Column, record: dict):
+def value_of(column: Column, record: dict) -> Any:
     return column.get(record) if column.get else record.get(column.key)
 
 

@@ -39,6 +39,7 @@ from cationcalc.compute.models import SpeciesResult
 
 if TYPE_CHECKING:  # pragma: no cover
     import matplotlib.figure
+    from rdkit import Chem
 
 #: the quantity a stability ladder is drawn for, per task (title, how to read it)
 LADDER_QUANTITIES = {
@@ -50,7 +51,7 @@ LADDER_QUANTITIES = {
 }
 
 
-def png_bytes(fig) -> bytes:
+def png_bytes(fig: "matplotlib.figure.Figure") -> bytes:
     """A matplotlib figure as PNG bytes (no timestamp), the figure closed."""
     buffer = io.BytesIO()
     fig.savefig(buffer, format="png", dpi=110, metadata={"Software": None}, bbox_inches="tight", pad_inches=0.1)
@@ -70,7 +71,7 @@ def record_label(record: dict) -> str:
     return label
 
 
-def ladder_figure(records: list[dict], quantity: str, title: str | None = None):
+def ladder_figure(records: list[dict], quantity: str, title: str | None = None) -> "matplotlib.figure.Figure | None":
     """Species sorted by ``quantity`` (kcal/mol; kJ/mol on the top axis), one marker series per solvent.
 
     Pass the records of one task.  Error bars come from
@@ -171,7 +172,7 @@ def _charge_colour(q: float) -> tuple[float, float, float]:
     return (float(r), float(g), float(b))
 
 
-def drawn_structure(result: SpeciesResult):
+def drawn_structure(result: SpeciesResult) -> "tuple[Chem.Mol | None, bool]":
     """(heavy-atom molecule to draw, True when it is the relaxed structure), atom order of the result.
 
     A species that relaxed to other bonds is drawn as it relaxed: connectivity from the optimised

@@ -41,10 +41,25 @@ import re
 import tempfile
 from importlib import metadata
 from pathlib import Path
+from typing import Any, Protocol
 
 from cationcalc.about import SAFETY_NOTE, __version__
 from cationcalc.chem import units
 from cationcalc.compute.models import SpeciesResult
+from cationcalc.execution.store import ResultStore
+
+
+class StudyPlan(Protocol):
+    """What the report reads of a study's plan (cationcalc.studies.plan.Plan; the report sits below studies)."""
+
+    workflow: Any
+    loaded: Any
+    input_files: Any
+    settings: dict
+    solvents: list
+    tasks: list
+    items: list
+    output_dir: Path
 
 #: libraries whose versions go into every output (the ones that determine or draw the numbers)
 LIBRARIES = ("tblite", "xtb", "rdkit", "ase", "numpy", "scipy", "pydantic", "PyYAML", "matplotlib")
@@ -71,7 +86,7 @@ def library_versions(engine: str = "tblite") -> dict[str, str]:
     return versions
 
 
-def provenance(plan, store) -> dict:
+def provenance(plan: StudyPlan, store: ResultStore) -> dict:
     """The provenance block shared by every output file of a study."""
     created = sorted(store.created(store.touched).values())
     wf = plan.workflow
@@ -127,7 +142,7 @@ def write_atomic(path: Path, data: bytes) -> bool:
     return True
 
 
-def jsonable(value):
+def jsonable(value: Any) -> Any:
     """A numpy scalar or array as plain Python (``default=`` of :func:`json.dumps`)."""
     if hasattr(value, "item"):  # numpy scalars
         return value.item()
@@ -136,7 +151,7 @@ def jsonable(value):
     raise TypeError(f"cannot write {type(value).__name__} to JSON")
 
 
-def finite(value):
+def finite(value: Any) -> Any:
     """``value`` with every NaN or infinite float replaced by None (JSON has no NaN; a reader would choke)."""
     if isinstance(value, float):
         return value if math.isfinite(value) else None
@@ -159,7 +174,7 @@ def records_json(records: list[dict], prov: dict) -> bytes:
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
-def spreadsheet_safe(value):
+def spreadsheet_safe(value: Any) -> Any:
     """A text cell a spreadsheet would run as a formula (=, +, -, @ first) gets a leading single quote.
 
     Numbers, and text that reads as a plain number (-1.5), are left alone.  Common practice, no source.
@@ -227,7 +242,7 @@ def names_by_smiles(records: list[dict]) -> dict[str, list[str]]:
     return names
 
 
-def study_species(store) -> list[SpeciesResult]:
+def study_species(store: ResultStore) -> list[SpeciesResult]:
     """Every stored species this run used, in a fixed order (level, formula, SMILES)."""
     results = list(store.results(store.touched))
     return sorted(results, key=lambda r: (r.solvent or "", r.formula, r.smiles, r.charge, r.multiplicity, r.key))

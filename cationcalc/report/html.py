@@ -18,7 +18,7 @@ from cationcalc.about import SAFETY_NOTE
 from cationcalc.compute.models import SpeciesResult
 from cationcalc.report.figures import (CHARGE_SCALE, LADDER_QUANTITIES, colour_scale_png, depiction_png,
                                        drawn_structure, half_life_png, ladder_png, record_label)
-from cationcalc.report.files import jsonable
+from cationcalc.report.files import StudyPlan, jsonable
 
 #: the full-data table of a task (behind 'all numbers' in the report)
 TABLE_COLUMNS = {
@@ -139,7 +139,7 @@ def task_table_html(task: str, rows: list[dict]) -> str:
     return "".join(out)
 
 
-def report_html(plan, records: list[dict], results: list[SpeciesResult], prov: dict,
+def report_html(plan: StudyPlan, records: list[dict], results: list[SpeciesResult], prov: dict,
                 task_titles: Mapping[str, str]) -> bytes:
     """The whole page as UTF-8 bytes; ``task_titles`` names each task's table (task name → title)."""
     parts = _header(plan, records)

@@ -21,7 +21,8 @@ from pathlib import Path
 from cationcalc.report.figures import (CHARGE_COLOURS, CHARGE_SCALE, LADDER_QUANTITIES, colour_scale_png,
                                        depiction_png, drawn_structure, heavy_atom_charges, ladder_figure, ladder_png,
                                        record_label)
-from cationcalc.report.files import (csv_text, finite, library_versions, names_by_smiles, one_line, provenance,
+from cationcalc.execution.store import ResultStore
+from cationcalc.report.files import (StudyPlan, csv_text, finite, library_versions, names_by_smiles, one_line, provenance,
                                      read_results, records_csv, records_json, spreadsheet_safe, structures_sdf,
                                      study_species, write_atomic, xyz_files)
 from cationcalc.tasks.registry import SpecField
@@ -33,7 +34,7 @@ TASK_TITLES = SpecField("report_title")
 _label = record_label
 
 
-def write_outputs(plan, records: list[dict], store) -> list[Path]:
+def write_outputs(plan: StudyPlan, records: list[dict], store: ResultStore) -> list[Path]:
     """Write every requested output of a study; returns the paths (changed or not)."""
     out = plan.output_dir
     out.mkdir(parents=True, exist_ok=True)

@@ -26,12 +26,13 @@ import hashlib
 import inspect
 import stat
 from pathlib import Path
-from typing import Any
+from typing import Any, Iterator
 
 from pydantic import BaseModel, ValidationError
 
 from cationcalc.about import __version__
 from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE
+from cationcalc.chem.species import Species
 from cationcalc.compute.models import Settings, species_key
 from cationcalc.studies.loading import LoadedWorkflow
 from cationcalc.studies.schema import KNOWN_TASKS, REFINE_OPTIONS, ExecutionSpec, Workflow, WorkflowError
@@ -274,7 +275,8 @@ def build_plan(loaded: LoadedWorkflow, *, output: str | None = None, workers: in
                 force=wf.execution.force, formats=list(dict.fromkeys(wf.output.formats)))
 
 
-def known_needs(task: PlannedTask, settings: Settings, force: bool):
+def known_needs(task: PlannedTask, settings: Settings, force: bool
+                ) -> tuple[list[Species], list[tuple[str, str]]] | None:
     """Species the task needs and the inputs it rejects; None for a task that finds its species as it goes
     (the shift search)."""
     from cationcalc.tasks import runner as tasks
@@ -326,7 +328,7 @@ def planned_species_count(plan: Plan) -> int:
     return len(keys)
 
 
-def planned_needs(plan: Plan):
+def planned_needs(plan: Plan) -> Iterator[tuple[str | None, PlannedTask, Settings, Any]]:
     """(solvent, task, settings, known_needs) for every task of the plan where it runs, in plan order."""
     for solvent in plan.solvents:
         for task in plan.tasks:

@@ -42,7 +42,9 @@ from cationcalc.compute.properties import heterolysis_energy, hydride_ion_affini
 from cationcalc.tasks.records import Prepared, record_base, collect_warnings, species_profile
 from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE, hia_reference, load_table
 from cationcalc.chem.species import InputError, Species, hydride_adduct
+from cationcalc.execution.executors import Progress
 from cationcalc.execution.refine import refine_task_records
+from cationcalc.execution.store import ResultStore
 from cationcalc.tasks.rate import medium_rates
 from cationcalc.tasks.registry import RefinableOptions, StepContext, TaskSpec, option, register, with_defaults
 from cationcalc.tasks.views import (CATION, DDG_ION, DG_ION, HALF_LIFE, HIA, LG_K, REARRANGEMENT, SITE, SUBSTRATE,
@@ -280,8 +282,8 @@ def collate(task: str, records: list[dict], settings: Settings) -> list[dict]:
     return ok + failed
 
 
-def attach_shifts(records: list[dict], known: dict, settings: Settings, *, workers: int = 1, store=None,
-                  progress=None, threshold_kcal_mol: float | None = None) -> list[dict]:
+def attach_shifts(records: list[dict], known: dict, settings: Settings, *, workers: int = 1,
+                  store: ResultStore | None = None, progress: Progress | None = None, threshold_kcal_mol: float | None = None) -> list[dict]:
     """Add a ``shifts`` section: the downhill 1,2-shifts of every cation formed (one shift deep).
 
     Cations already computed for the records (``known``: species → result) are

@@ -49,6 +49,8 @@ from cationcalc.chem.kinetics import (EQUATION_ERROR_LG, ELECTROFUGE_TEMPERATURE
 from cationcalc.chem.leaving_groups import leaving_group as lookup_leaving_group
 from cationcalc.chem.media import Medium
 from cationcalc.compute.models import Settings, SpeciesResult
+from cationcalc.execution.executors import Progress
+from cationcalc.execution.store import ResultStore
 from cationcalc.trust.nucleofuges import Nucleofugality, nucleofugality
 from cationcalc.compute.properties import hydride_ion_affinity
 from cationcalc.tasks.records import Prepared, record_base, collect_warnings, species_profile
@@ -342,7 +344,8 @@ def _descriptor_needs(cation_smiles: str) -> dict[str, Species]:
 
 
 def add_rates(task: str, records: list[dict], settings: Settings, m: Medium | str, temperature_k: float, *,
-              workers: int = 1, store=None, progress=None, force: bool = False) -> list[dict]:
+              workers: int = 1, store: ResultStore | None = None, progress: Progress | None = None,
+              force: bool = False) -> list[dict]:
     """Kinetic keys on ``ionize`` and ``ladder`` records (a second pass at the descriptor's level).
 
     Where a rate exists the verdict speaks in time (the equilibrium verdict is kept

@@ -26,7 +26,9 @@ from dataclasses import dataclass
 from typing import Any, Callable
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic.fields import FieldInfo
 
+from cationcalc.compute.models import Settings
 from cationcalc.tasks.views import Column
 
 #: the modules that declare the built-in tasks, in the order the command line and the workflow list them (a task
@@ -38,7 +40,7 @@ REFINE_OPTIONS = ("refine", "refine_top_k", "refine_window_kcal_mol")
 
 
 def option(default: Any = ..., description: str = "", *, flag: str | None = None, cli_help: str | None = None,
-           comma_list: bool = False, metavar: str | None = None, **constraints) -> Any:
+           comma_list: bool = False, metavar: str | None = None, **constraints: Any) -> Any:
     """A task option: default and description written once; ``flag`` names the command-line option when it
     is not ``--name-with-dashes``, ``cli_help`` words a negated flag (``--no-shifts``), ``comma_list`` reads
     a list as one comma-separated argument, ``metavar`` names its value in the help (default: the flag).  ``{default}`` in the description is filled in."""
@@ -98,7 +100,7 @@ def with_defaults(model: type[BaseModel], options: dict) -> dict:
     return {**defaults, **options}
 
 
-def keep(records: list[dict], settings) -> list[dict]:
+def keep(records: list[dict], settings: Settings) -> list[dict]:
     """Collate step of a task with one record per request: the records as they are."""
     return records
 
@@ -228,7 +230,7 @@ def spec(name: str) -> TaskSpec:
     return _REGISTRY[name]
 
 
-def cli_meta(field) -> dict:
+def cli_meta(field: FieldInfo) -> dict:
     """The command-line hints of an options field (see :func:`option`)."""
     extra = field.json_schema_extra if isinstance(field.json_schema_extra, dict) else {}
     return extra.get("cli") or {"flag": None, "cli_help": None, "comma_list": False, "metavar": None}

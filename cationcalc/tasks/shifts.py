@@ -37,7 +37,8 @@ from cationcalc.chem import units
 from cationcalc.chem.shift_graph import KINDS, ShiftCandidate, enumerate_shifts, skipped_shifts
 from cationcalc.chem.species import InputError, Species, carbocation
 from cationcalc.compute.models import Settings, SpeciesResult
-from cationcalc.execution.executors import Interrupted, compute_many
+from cationcalc.execution.executors import Interrupted, Progress, compute_many
+from cationcalc.execution.store import ResultStore
 from cationcalc.tasks.records import BatchInterrupted, record_base, species_profile
 from cationcalc.tasks.registry import TaskOptions, TaskSpec, option, register
 from cationcalc.tasks.views import CATION, SUBSTRATE, Column
@@ -297,7 +298,8 @@ def _drive(searches: list[ShiftSearch], compute: Callable[[list[Species]], dict]
 def run_shifts(items: Iterable[tuple[str, str]], settings: Settings, *, depth: int = DEFAULT_DEPTH,
                threshold_kcal_mol: float = DEFAULT_THRESHOLD_KCAL_MOL,
                ceiling_kcal_mol: float = DEFAULT_CEILING_KCAL_MOL, barriers: bool = False, workers: int = 1,
-               force: bool = False, progress=None, store=None, max_species: int = DEFAULT_MAX_SPECIES,
+               force: bool = False, progress: Progress | None = None, store: ResultStore | None = None,
+               max_species: int = DEFAULT_MAX_SPECIES,
                compute: Callable[[list[Species]], dict] | None = None,
                barrier_options: dict | None = None) -> list[dict]:
     """1,2-shift analysis of each (cation SMILES, name); one record per input, order kept.
