@@ -547,9 +547,8 @@ def main(argv: list[str] | None = None) -> int:
         print(f"cationcalc: warning: the result store {args.store} could not be written ({store.write_error}); "
               "the results below are complete but not stored: keep them with --json > FILE, or give a writable "
               "--store and run again", file=sys.stderr)
-    if not args.profile:
-        for r in records:
-            r.pop("profile", None)
+    if not args.profile:  # new flat records without the profile (typed records are read-only)
+        records = [{k: v for k, v in r.items() if k != "profile"} for r in records]
     if args.json:
         from cationcalc.report.outputs import finite
 

@@ -46,6 +46,7 @@ import os
 import platform
 import re
 import tempfile
+from collections.abc import Mapping
 from importlib import metadata
 from pathlib import Path
 
@@ -165,7 +166,7 @@ def finite(value):
     """``value`` with every NaN or infinite float replaced by None (JSON has no NaN; a reader would choke)."""
     if isinstance(value, float):
         return value if math.isfinite(value) else None
-    if isinstance(value, dict):
+    if isinstance(value, Mapping):  # a dict or a typed record
         return {k: finite(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         return [finite(v) for v in value]

@@ -1062,9 +1062,8 @@ def run_plan(plan: Plan, *, show_progress: bool = False, write: bool = True) -> 
                             rows = task.runner(task.name, task.items, settings, **task.options, **common)
                         if sigint_seen():  # a library swallowed Ctrl-C: the rows may be partial
                             raise KeyboardInterrupt
-                        for row in rows:
-                            row.pop("profile", None)
-                            records.append({"task": task.name, **row})
+                        for row in rows:  # a new flat record: the task first, without the profile
+                            records.append({"task": task.name, **{k: v for k, v in row.items() if k != "profile"}})
         except (Interrupted, BatchInterrupted, KeyboardInterrupt):
             bar.stop()
             return Outcome(records=[], files=[], computed=bar.done, failed=bar.failed,

@@ -8,14 +8,18 @@ models check the keys and their types but never convert a value (an ``int``
 temperature stays an ``int``).  A record reads like a read-only dict
 (``r["hia_kcal_mol"]``, ``r.get(...)``, ``"error" in r``, ``dict(r)``);
 :meth:`Record.to_dict` and ``model_dump()`` give the flat dict of today's
-keys.  Later stages (calibration, DFT refinement) build new records with
-:meth:`Record.with_values`; nothing is rewritten in place.
+keys.  Nothing rewrites a record in place: calibration and DFT refinement
+(:func:`cationcalc.trust.uncertainty.annotate`,
+:mod:`cationcalc.execution.refine`) return new flat records, which
+:func:`~cationcalc.tasks.runner.run_task` types once, at its end
+(:func:`typed_records`); :meth:`Record.with_values` gives a changed copy.
 
-Two families of keys are derived from the declarations instead of written
-out twice: the GFN2-xTB twins a DFT refinement keeps beside each refined
-value (``hia_kcal_mol`` → ``hia_xtb_kcal_mol``, :func:`xtb_twin_name`), and
-the calibration's raw values (``hia_raw_kcal_mol``), declared in
-:class:`CalibrationFields`.
+Keys that come in families: the GFN2-xTB twin a DFT refinement keeps beside
+each refined value (``hia_kcal_mol`` → ``hia_xtb_kcal_mol``, the rule of
+:func:`~cationcalc.execution.refine.xtb_key`) is declared from the field
+group it twins (:class:`HiaValues` → ``HiaValuesXtbTwins``); the raw values
+a calibration keeps (``hia_raw_kcal_mol``) and the error bars are declared
+in :class:`CalibrationFields`.
 
 Example
 -------
@@ -36,17 +40,7 @@ from typing import Any, Iterable
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, create_model, model_serializer
 
-#: unit suffixes of keys whose computed values get a GFN2-xTB twin under DFT refinement
-XTB_UNIT_SUFFIXES = ("_kcal_mol", "_kJ_mol", "_hartree")
-
-
-def xtb_twin_name(key: str) -> str | None:
-    """``hia_kcal_mol`` → ``hia_xtb_kcal_mol``; None for a key without a unit suffix."""
-    for suffix in XTB_UNIT_SUFFIXES:
-        if key.endswith(suffix):
-            return key[: -len(suffix)] + "_xtb" + suffix
-    return None
-
+from cationcalc.execution.refine import xtb_key
 
 def _d(text: str, default: Any = None) -> Any:
     """An optional field described once."""
@@ -106,11 +100,6 @@ class Record(BaseModel, Mapping):
 
     def __repr_args__(self):
         return list(self.to_dict().items())
-
-
-def rebuilt(record: Mapping[str, Any], values: dict[str, Any]) -> Mapping[str, Any]:
-    """``values`` as the same kind of record as ``record`` (a typed record stays typed, a dict a dict)."""
-    return type(record).from_dict(values) if isinstance(record, Record) else values
 
 
 # ---------------------------------------------------------------- field groups
@@ -254,7 +243,7 @@ class RateValues(Record):
 
 def _with_xtb_twins(values: type[Record]) -> type[Record]:
     """A field group with, for each of ``values``' fields, its GFN2-xTB twin (``*_xtb_*``) declared."""
-    twins = {xtb_twin_name(name): (float | None, Field(None, description=f"GFN2-xTB value of {name}, kept beside "
+    twins = {xtb_key(name): (float | None, Field(None, description=f"GFN2-xTB value of {name}, kept beside "
                                                                           "the DFT-refined one"))
              for name in values.model_fields}
     return create_model(f"{values.__name__}XtbTwins", __base__=Record, __module__=__name__, **twins)
@@ -490,7 +479,7 @@ def typed_records(task: str, records: Iterable[Mapping[str, Any]]) -> list[Recor
     return [typed_record(task, r) for r in records]
 
 
-__all__ = ["Record", "Failure", "MODELS", "FAILURES", "typed_record", "typed_records", "rebuilt", "xtb_twin_name",
+__all__ = ["Record", "Failure", "MODELS", "FAILURES", "typed_record", "typed_records", 
            "HiaRecord", "HeterolysisRecord", "ThermoRecord", "IonizeRecord", "SitesRecord", "LadderRecord",
            "RateRecord", "ShiftsRecord", "HiaFailure", "HeterolysisFailure", "ThermoFailure", "IonizeFailure",
-           "SitesFailure", "LadderFailure", "RateFailure", "ShiftsFailure", "XTB_UNIT_SUFFIXES"]
+           "SitesFailure", "LadderFailure", "RateFailure", "ShiftsFailure"]

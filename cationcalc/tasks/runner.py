@@ -26,6 +26,7 @@ from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE, HIAReference, hia_r
 from cationcalc.chem.species import InputError, Species, carbocation, heterolysis_fragments, hydride_adduct, species
 from cationcalc.tasks.ionization import attach_shifts, collate, prepare_ionize, prepare_ladder, prepare_sites
 from cationcalc.tasks.records import BatchInterrupted, Prepared, collect_warnings, record_base, species_profile
+from cationcalc.tasks.record_types import Record, typed_records
 
 TASKS = ("hia", "heterolysis", "thermo", "ionize", "sites", "ladder", "rate")
 
@@ -167,8 +168,8 @@ def prepare(task: str, text: str, name: str, settings: Settings, options: dict, 
 
 
 def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, reference: str = DEFAULT_HIA_REFERENCE,
-             workers: int = 1, force: bool = False, progress=None, store=None, **options) -> list[dict]:
-    """Run one task over (input, name) pairs; records in input order.
+             workers: int = 1, force: bool = False, progress=None, store=None, **options) -> list[Record]:
+    """Run one task over (input, name) pairs; typed records (:mod:`cationcalc.tasks.record_types`) in input order.
 
     ``hia``, ``heterolysis``, ``thermo`` and ``ionize`` give one record per
     input; ``sites`` and ``ladder`` one per site or leaving group, ranked.
@@ -232,11 +233,10 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
             finished_groups = refine_task_records(task, groups, finished_groups, results, settings, options,
                                                   workers=workers, force=force, store=store)
         except KeyboardInterrupt:  # keep the GFN2-xTB records, labelled as not refined
+            from cationcalc.execution.refine import mark_unrefined
+
             interrupted, refining = True, False
-            for r in (r for finished in finished_groups for r in finished if not r.get("error")):
-                r["refine_level"] = None
-                r["warnings"] = list(r.get("warnings", [])) + [
-                    f"DFT refinement interrupted: this value is {settings.level}"]
+            finished_groups = [mark_unrefined(finished, settings.level) for finished in finished_groups]
     for finished in finished_groups:
         if task == "rate":
             from cationcalc.tasks.rate import collate_rates
@@ -261,6 +261,7 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
         except Interrupted:
             interrupted = True
     if task == "rate":
+        records = typed_records(task, records)  # typed records from here on
         if interrupted:
             raise BatchInterrupted(records)
         return records
@@ -271,6 +272,7 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
         from cationcalc.execution.refine import relabel_uncertainties
 
         records = relabel_uncertainties(records, calibrated=bool(options.get("calibrated", False)))
+    records = typed_records(task, records)  # typed records from here on
     if interrupted:
         raise BatchInterrupted(records)
     return records

@@ -61,6 +61,7 @@ from cationcalc.execution.executors import Interrupted, SpeciesFailure, compute_
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.chem.species import Carbocation, InputError, Species, carbocation
 from cationcalc.tasks.records import BatchInterrupted, record_base, species_profile
+from cationcalc.tasks.record_types import typed_records
 
 #: ΔG (kcal/mol) below −threshold flags a shift as a likely rearrangement (1 kcal/mol:
 #: about 1.7 RT at 298 K, i.e. > 80 % product at equilibrium, and above the spread of
@@ -751,6 +752,7 @@ def run_shifts(items: Iterable[tuple[str, str]], settings: Settings, *, depth: i
         if barriers and not interrupted and "error" not in record:
             _add_barriers(record, search, settings, barrier_options or {})
         records.append(record)
+    records = typed_records("shifts", records)  # typed records from here on
     if interrupted:
         raise BatchInterrupted(records)
     return records
