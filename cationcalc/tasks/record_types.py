@@ -28,9 +28,9 @@ Example
 ...                             "temperature_k": 298.15, "symmetry_number": 2})
 >>> type(r).__name__, r["symmetry_number"], list(r)[-1], "error" in r
 ('ThermoRecord', 2, 'symmetry_number', False)
->>> failed = typed_record("hia", {**dict(r), "error": "not a carbocation"})
->>> isinstance(failed, Failure), failed.to_dict() == {**dict(r), "error": "not a carbocation"}
-(True, True)
+>>> failed = typed_record("thermo", {**dict(r), "error": "no conformer embedded"})
+>>> type(failed).__name__, isinstance(failed, Failure), list(failed)[-1]
+('ThermoFailure', True, 'error')
 """
 
 from __future__ import annotations
@@ -265,7 +265,7 @@ class Site(Record):
     leaving_group_smiles: str | None = _d("SMILES of the departing group (X⁻ or neutral X)")
     site_atom: int | None = _d("index of the carbon that becomes cationic")
     equivalent_atoms: list[int] | None = _d("symmetry-equivalent site atoms")
-    protonated_oxygen: bool | None = _d("the leaving group is a protonated oxygen (acid mode)")
+    protonated_oxygen: int | None = _d("index of the oxygen protonated in acid mode (None otherwise)")
     cation_class: str | None = _d("structural class of the cation (tertiary, benzylic (secondary), …)")
 
 
