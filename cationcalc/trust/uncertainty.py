@@ -1,9 +1,10 @@
 """An uncertainty on every computed HIA and ΔG, and the calibrated HIA on request.
 
-:func:`annotate` adds ``<quantity>_uncertainty_kcal_mol`` to every record
-that carries the quantity (``hia``, ``hia_G``, ``dHIA_vs_tert_butyl``,
-``hia_vs_best``, ``dG_ion``, ``ddG_ion``, ``ddG_ion_vs_tert_butyl``,
-``dG_ion_vs_best`` for sites, ``dH_het``, ``dG_het``), plus
+:func:`annotate` returns new records (the ones given are not changed) with
+``<quantity>_uncertainty_kcal_mol`` beside every quantity the record carries
+(``hia``, ``hia_G``, ``dHIA_vs_tert_butyl``, ``hia_vs_best``, ``dG_ion``,
+``ddG_ion``, ``ddG_ion_vs_tert_butyl``, ``dG_ion_vs_best`` for sites,
+``dH_het``, ``dG_het``), plus
 ``uncertainty_basis`` saying where the number comes from.  All error bars
 are *root-mean-square* errors (kcal/mol), read from the residuals stored with
 the calibration of the level of theory (``data/calibration_residuals.csv``,
