@@ -376,9 +376,8 @@ def _execute(args, items: list[tuple[str, str]]) -> int:
 
 def _print_records(args, records: list[dict]) -> None:
     """JSON, CSV, the wide table or the reading view; the time profile on request."""
-    if not args.profile:
-        for r in records:
-            r.pop("profile", None)
+    if not args.profile:  # new flat records without the profile (typed records are read-only)
+        records = [{k: v for k, v in r.items() if k != "profile"} for r in records]
     if args.json:
         from cationcalc.report.outputs import finite
 

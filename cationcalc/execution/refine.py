@@ -69,6 +69,7 @@ from __future__ import annotations
 import hashlib
 import time
 from dataclasses import dataclass
+from collections.abc import Mapping
 from typing import Callable, Sequence
 
 from cationcalc.chem import units
@@ -424,7 +425,7 @@ def _is_number(value) -> bool:
     return isinstance(value, (int, float)) and not isinstance(value, bool)
 
 
-def merge_records(refined: dict, xtb: dict) -> dict:
+def merge_records(refined: Mapping, xtb: Mapping) -> dict:
     """The refined record with each computed GFN2-xTB value right after its refined twin."""
     out = {}
     for key, value in refined.items():
@@ -435,7 +436,7 @@ def merge_records(refined: dict, xtb: dict) -> dict:
     return out
 
 
-def _xtb_twins(record: dict) -> dict:
+def _xtb_twins(record: Mapping) -> dict:
     out = {}
     for key, value in record.items():
         out[key] = value
@@ -499,77 +500,82 @@ def refine_note(level: Level, settings: Settings) -> str:
 def refine_task_records(task: str, groups: list, finished_groups: list[list[dict]], results: dict,
                         settings: Settings, options: dict, *, workers: int = 1, force: bool = False,
                         store=None) -> list[list[dict]]:
-    """Refine the species of the selected requests and rebuild their records (refined + ``_xtb`` twins).
+    """New records for the selected requests, rebuilt from refined species (``_xtb`` twins beside).
 
     ``groups`` are the prepared requests (:class:`~cationcalc.tasks.records.Prepared`)
     of each input and ``finished_groups`` their GFN2-xTB records, in the same
     order; ``results`` maps each species to its GFN2-xTB result.  Options:
     ``refine`` (level), ``refine_top_k``, ``refine_window_kcal_mol``,
-    ``refine_log`` (callable receiving the cost estimate lines).
+    ``refine_log`` (callable receiving the cost estimate lines).  The
+    GFN2-xTB records are not changed.
     """
-    from cationcalc.execution.executors import SpeciesFailure
-
     lvl = parse_level(options["refine"])
     selected = select_for_refinement(task, finished_groups, options.get("refine_top_k"),
                                      options.get("refine_window_kcal_mol"))
     needed = list(dict.fromkeys(sp for g, i in sorted(selected) for sp in groups[g][i].needs.values()))
     refined = refine_many({sp: results[sp] for sp in needed}, lvl, settings, force=force,
                           threads=max(1, int(workers or 1)), store=store, log=options.get("refine_log"))
-    note = refine_note(lvl, settings)
-    level_name = refined_level_name(lvl, settings.level, settings)
-    out_groups = []
-    for g, finished in enumerate(finished_groups):
-        out = []
-        for i, record in enumerate(finished):
-            if record.get("error"):
-                out.append(record)
-                continue
-            p = groups[g][i]
-            if (g, i) not in selected:
-                rec = _xtb_twins(record)
-                rec.update({"refine_level": None, "xtb_level": settings.level,
-                            "refine_note": f"not refined (outside the refine_top_k/refine_window_kcal_mol "
-                                           f"selection): GFN2-xTB values ({settings.level})"})
-                rec["warnings"] = list(rec.get("warnings", [])) + [
-                    f"not refined at {lvl.name}: this value is GFN2-xTB ({settings.level})"]
-                out.append(rec)
-                continue
-            res = {role: refined[sp] for role, sp in p.needs.items()}
-            failed = [f"{role} {sp.smiles}: {res[role].message}" for role, sp in p.needs.items()
-                      if isinstance(res[role], SpeciesFailure)]
-            if failed:
-                rec = {**p.base, "error": "; ".join(failed), "warnings": list(record.get("warnings", [])),
-                       "rearranged": record.get("rearranged", False)}
-                rec.update({xtb_key(k): v for k, v in record.items()
-                            if xtb_key(k) and k not in _NOT_COMPUTED and _is_number(v)})
-                rec.update({"refine_level": lvl.name, "xtb_level": settings.level, "refine_note": note})
-                out.append(rec)
-                continue
-            rec = merge_records(p.finish(res), record)
-            infos = [refined.info[sp] for sp in dict.fromkeys(p.needs.values()) if sp in refined.info]
-            rec.update({"level": level_name, "xtb_level": settings.level, "refine_level": lvl.name,
-                        "refine_solvation": solvation_label(lvl, settings), "refine_note": note,
-                        "refine_seconds": round(sum(x.seconds for x in infos), 2)})
-            out.append(rec)
-        out_groups.append(out)
-    return out_groups
+    return [[record if record.get("error") else
+             _refined_record(groups[g][i], record, refined, lvl, settings) if (g, i) in selected else
+             _unselected_record(record, lvl, settings)
+             for i, record in enumerate(finished)] for g, finished in enumerate(finished_groups)]
 
 
-def relabel_uncertainties(records: list[dict], calibrated: bool = False) -> list[dict]:
-    """Drop GFN2-xTB error bars from refined records (they describe GFN2-xTB, not the DFT level)."""
-    for r in records:
-        if not r.get("refine_level") or r.get("error"):
-            continue
-        for key in [k for k in r if k.endswith("_uncertainty_kcal_mol")]:
-            r.pop(key)
-        mae = BENCHMARK_MAE_KCAL_MOL.get(r["refine_level"])
-        r["uncertainty_basis"] = (f"no per-value error bars at {r['refine_level']} (the GFN2-xTB ones do not apply)"
-                                  + (f"; its mean absolute error on the gas-phase HIA benchmark is {mae} kcal/mol "
-                                     "(benchmarks/results/dft_levels.md)" if mae is not None else ""))
-        if calibrated:
-            r["calibrated"] = False
-            r["calibration_note"] = "the calibration line is fitted to GFN2-xTB: refined values are not calibrated"
-    return records
+def _unselected_record(record: Mapping, level: Level, settings: Settings) -> dict:
+    """A request outside the refine_top_k/refine_window selection: GFN2-xTB values, labelled so."""
+    rec = _xtb_twins(record)
+    rec.update({"refine_level": None, "xtb_level": settings.level,
+                "refine_note": f"not refined (outside the refine_top_k/refine_window_kcal_mol "
+                               f"selection): GFN2-xTB values ({settings.level})"})
+    rec["warnings"] = list(rec.get("warnings", [])) + [
+        f"not refined at {level.name}: this value is GFN2-xTB ({settings.level})"]
+    return rec
+
+
+def _refined_record(prepared, record: Mapping, refined: "_Refined", level: Level, settings: Settings) -> dict:
+    """The record of one request rebuilt from its refined species, or its failure (GFN2-xTB twins kept)."""
+    from cationcalc.execution.executors import SpeciesFailure
+
+    res = {role: refined[sp] for role, sp in prepared.needs.items()}
+    failed = [f"{role} {sp.smiles}: {res[role].message}" for role, sp in prepared.needs.items()
+              if isinstance(res[role], SpeciesFailure)]
+    note = refine_note(level, settings)
+    if failed:
+        rec = {**prepared.base, "error": "; ".join(failed), "warnings": list(record.get("warnings", [])),
+               "rearranged": record.get("rearranged", False)}
+        rec.update({xtb_key(k): v for k, v in record.items()
+                    if xtb_key(k) and k not in _NOT_COMPUTED and _is_number(v)})
+        rec.update({"refine_level": level.name, "xtb_level": settings.level, "refine_note": note})
+        return rec
+    rec = merge_records(prepared.finish(res), record)
+    infos = [refined.info[sp] for sp in dict.fromkeys(prepared.needs.values()) if sp in refined.info]
+    rec.update({"level": refined_level_name(level, settings.level, settings), "xtb_level": settings.level,
+                "refine_level": level.name, "refine_solvation": solvation_label(level, settings),
+                "refine_note": note, "refine_seconds": round(sum(x.seconds for x in infos), 2)})
+    return rec
+
+
+def mark_unrefined(records: list[Mapping], xtb_level: str) -> list[Mapping]:
+    """New records saying the refinement was interrupted: the values are GFN2-xTB (failures as they were)."""
+    return [r if r.get("error") else {**r, "refine_level": None, "warnings": list(r.get("warnings", [])) + [
+        f"DFT refinement interrupted: this value is {xtb_level}"]} for r in records]
+
+
+def relabel_uncertainties(records: list[Mapping], calibrated: bool = False) -> list[Mapping]:
+    """New records without the GFN2-xTB error bars on refined values (they describe GFN2-xTB, not DFT)."""
+    return [r if not r.get("refine_level") or r.get("error") else _relabelled(r, calibrated) for r in records]
+
+
+def _relabelled(record: Mapping, calibrated: bool) -> dict:
+    out = {k: v for k, v in record.items() if not k.endswith("_uncertainty_kcal_mol")}
+    mae = BENCHMARK_MAE_KCAL_MOL.get(out["refine_level"])
+    out["uncertainty_basis"] = (f"no per-value error bars at {out['refine_level']} (the GFN2-xTB ones do not apply)"
+                                + (f"; its mean absolute error on the gas-phase HIA benchmark is {mae} kcal/mol "
+                                   "(benchmarks/results/dft_levels.md)" if mae is not None else ""))
+    if calibrated:
+        out["calibrated"] = False
+        out["calibration_note"] = "the calibration line is fitted to GFN2-xTB: refined values are not calibrated"
+    return out
 
 
 class _Refined(dict):
@@ -581,6 +587,7 @@ class _Refined(dict):
 
 
 __all__ = ["refine_task_records", "select_for_refinement", "merge_records", "xtb_key", "relabel_uncertainties",
+           "mark_unrefined",
            "DEFAULT_LEVEL", "MAX_BASIS_FUNCTIONS", "Level", "RefineError", "Refinement", "CostEstimate",
            "parse_level", "offered_levels", "estimate_cost", "refine_result", "refine_species", "refine_many",
            "refined_key", "solvation_label", "refined_level_name"]

@@ -40,6 +40,7 @@ import platform
 import re
 import tempfile
 from importlib import metadata
+from collections.abc import Mapping
 from pathlib import Path
 from typing import Any, Protocol
 
@@ -155,7 +156,7 @@ def finite(value: Any) -> Any:
     """``value`` with every NaN or infinite float replaced by None (JSON has no NaN; a reader would choke)."""
     if isinstance(value, float):
         return value if math.isfinite(value) else None
-    if isinstance(value, dict):
+    if isinstance(value, Mapping):  # a dict or a typed record
         return {k: finite(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         return [finite(v) for v in value]

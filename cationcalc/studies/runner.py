@@ -144,9 +144,8 @@ def _compute_and_run(plan: Plan, store, bar: _Progress, prefetch: list[tuple[Set
                     rows = task.runner(task.name, task.items, settings, **task.options, **common)
                 if sigint_seen():  # a library swallowed Ctrl-C: the rows may be partial
                     raise KeyboardInterrupt
-                for row in rows:
-                    row.pop("profile", None)
-                    records.append({"task": task.name, **row})
+                for row in rows:  # a new flat record: the task first, without the profile
+                    records.append({"task": task.name, **{k: v for k, v in row.items() if k != "profile"}})
     return records
 
 

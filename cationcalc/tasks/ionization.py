@@ -233,58 +233,76 @@ def spearman_rho(x: list[float], y: list[float]) -> float:
 
 
 def collate(task: str, records: list[dict], settings: Settings) -> list[dict]:
-    """Per-input post-processing: choose (ionize) or rank (sites, ladder)."""
+    """Per-input post-processing into new records: choose (ionize) or rank (sites, ladder)."""
     if task not in ("ionize", "sites", "ladder"):
         return records
     ok = [r for r in records if not r.get("error")]
     failed = [r for r in records if r.get("error")]
     if task == "ionize":
-        if not ok:
-            return failed[:1] if len(failed) == 1 else [_merge_errors(failed)]
-        best = min(ok, key=_rank_key("dG_ion_kcal_mol"))
-        best["alternatives"] = [{k: r.get(k) for k in ("site_atom", "leaving_group", "cation_smiles",
-                                                       "dG_ion_kcal_mol", "verdict", "error")}
-                                for r in records if r is not best]
-        if best["alternatives"]:
-            best["warnings"].append(f"{len(records)} ionization sites: the most favourable is shown; "
-                                    "`cationcalc sites` ranks them all")
-        return [best]
+        return [_chosen_site(records, ok, failed)]
     key = "hia_kcal_mol" if ok and "hia_kcal_mol" in ok[0] else "dG_ion_kcal_mol"
     # the ranking follows the verdict rule: cations the structure rule flags (methyl, unstabilized
     # primary, vinylic, aryl) and cations that are not minima (they relax to another cation) come
     # after the others whatever their number; within each tier, by the number
     ok.sort(key=_rank_key(key))
-    for rank, r in enumerate(ok, 1):
-        r["rank"] = rank
-        r[f"{key.replace('_kcal_mol', '')}_vs_best_kcal_mol"] = round(r[key] - ok[0][key], 2)
-        if r.get("rearranged"):
-            r["verdict"] = "not a minimum"
-            r["verdict_reason"] = (f"the {r['cation_class']} cation {r['cation_smiles']} relaxes without a barrier "
-                                   f"at this level to {r.get('relaxed_cation_smiles') or 'a bridged structure'}; "
-                                   f"the number belongs to that structure. " + r["verdict_reason"])
+    ranked = [_ranked(r, rank, key, ok[0][key]) for rank, r in enumerate(ok, 1)]
     if task == "ladder":
-        rates = solvolysis_rates()
-        common = [r for r in ok if r["leaving_group"] in rates]
-        rho = None
-        if len(common) >= 3:
-            rho = spearman_rho([-r["dG_ion_kcal_mol"] for r in common],
-                               [math.log10(float(rates[r["leaving_group"]]["k_rel"])) for r in common])
-        first_row = next(iter(rates.values()), None)
-        source = f"{first_row['source']} — 1-phenylethyl-X, {first_row['conditions']}" if first_row else ""
-        for r in ok:
-            row = rates.get(r["leaving_group"])
-            r["solvolysis_k_rel"] = float(row["k_rel"]) if row else None
-            r["spearman_rho_vs_solvolysis"] = round(rho, 3) if rho is not None else None
-            r["solvolysis_n"] = len(common)
-            r["solvolysis_source"] = source
-            r["solvolysis_status"] = first_row["status"] if first_row else None
-            r["ladder_note"] = LADDER_NOTE
-    return ok + failed
+        ranked = _with_solvolysis(ranked)
+    return ranked + failed
+
+
+def _chosen_site(records: list[dict], ok: list[dict], failed: list[dict]) -> dict:
+    """ionize: the most favourable site, the others listed as alternatives (or the errors of all)."""
+    if not ok:
+        return failed[0] if len(failed) == 1 else _merge_errors(failed)
+    best = min(ok, key=_rank_key("dG_ion_kcal_mol"))
+    out = {**best, "alternatives": [{k: r.get(k) for k in ("site_atom", "leaving_group", "cation_smiles",
+                                                            "dG_ion_kcal_mol", "verdict", "error")}
+                                     for r in records if r is not best]}
+    if out["alternatives"]:
+        out["warnings"] = best["warnings"] + [f"{len(records)} ionization sites: the most favourable is shown; "
+                                              "`cationcalc sites` ranks them all"]
+    return out
+
+
+def _ranked(record: dict, rank: int, key: str, best_value: float) -> dict:
+    """A ranked site: its rank, its gap to the best, and the verdict of a cation that is not a minimum."""
+    gap = f"{key.replace('_kcal_mol', '')}_vs_best_kcal_mol"
+    out = {**record, "rank": rank, gap: round(record[key] - best_value, 2)}
+    if record.get("rearranged"):
+        relaxed = record.get("relaxed_cation_smiles") or "a bridged structure"
+        out["verdict"] = "not a minimum"
+        out["verdict_reason"] = (f"the {record['cation_class']} cation {record['cation_smiles']} relaxes without a "
+                                 f"barrier at this level to {relaxed}; the number belongs to that structure. "
+                                 + record["verdict_reason"])
+    return out
+
+
+def _with_solvolysis(ranked: list[dict]) -> list[dict]:
+    """ladder: each leaving group's published relative solvolysis rate and the Spearman ρ against ΔG_ion."""
+    rates = solvolysis_rates()
+    common = [r for r in ranked if r["leaving_group"] in rates]
+    rho = None
+    if len(common) >= 3:
+        rho = spearman_rho([-r["dG_ion_kcal_mol"] for r in common],
+                           [math.log10(float(rates[r["leaving_group"]]["k_rel"])) for r in common])
+    first_row = next(iter(rates.values()), None)
+    source = f"{first_row['source']} — 1-phenylethyl-X, {first_row['conditions']}" if first_row else ""
+    rho_3 = round(rho, 3) if rho is not None else None
+
+    def k_rel(r: dict) -> float | None:
+        return float(rates[r["leaving_group"]]["k_rel"]) if r["leaving_group"] in rates else None
+
+    return [{**r, "solvolysis_k_rel": k_rel(r), "spearman_rho_vs_solvolysis": rho_3,
+             "solvolysis_n": len(common), "solvolysis_source": source,
+             "solvolysis_status": first_row["status"] if first_row else None, "ladder_note": LADDER_NOTE}
+            for r in ranked]
 
 
 def attach_shifts(records: list[dict], known: dict, settings: Settings, *, workers: int = 1,
-                  store: ResultStore | None = None, progress: Progress | None = None, threshold_kcal_mol: float | None = None) -> list[dict]:
-    """Add a ``shifts`` section: the downhill 1,2-shifts of every cation formed (one shift deep).
+                  store: ResultStore | None = None, progress: Progress | None = None,
+                  threshold_kcal_mol: float | None = None) -> list[dict]:
+    """New records with a ``shifts`` section: the downhill 1,2-shifts of every cation formed (one shift deep).
 
     Cations already computed for the records (``known``: species → result) are
     reused; only the shift products are new.  Records gain ``shifts`` (the
@@ -309,24 +327,24 @@ def attach_shifts(records: list[dict], known: dict, settings: Settings, *, worke
 
     found = dict(zip(cations, run_shifts([(c, "") for c in cations], settings, depth=1,
                                          threshold_kcal_mol=threshold, compute=compute)))
-    for r in records:
-        screen = found.get(r.get("cation_smiles"))
-        if screen is None:
-            continue
-        if screen.get("error"):
-            r["shifts"], r["sink_smiles"] = None, None
-            r["warnings"].append(f"shift screen failed: {screen['error']}")
-            continue
-        r["shifts"] = [s for s in screen["shifts"] if s["flagged"]]
-        r["sink_smiles"] = screen.get("sink_smiles")
-        r["degenerate_shifts"] = screen.get("degenerate_shifts", [])
-        r["shift_summary"] = "; ".join(
-            f"{s['kind']} → {s['product_smiles']}"
-            + (f" (not a minimum: relaxes to {s['relaxed_to']})" if s.get("relaxed_to") else "")
-            + f" ΔG {s['dG_kcal_mol']:+.1f}; {s.get('barrier_status', 'barrier not computed')}"
-            for s in r["shifts"])
-        r["rearrangement"] = rearrangement_text(r)
-    return records
+    return [_with_shifts(r, found[r.get("cation_smiles")]) if r.get("cation_smiles") in found else r
+            for r in records]
+
+
+def _with_shifts(record: dict, screen) -> dict:
+    """A new record with the flagged shifts of its cation (or why the screen failed)."""
+    if screen.get("error"):
+        return {**record, "shifts": None, "sink_smiles": None,
+                "warnings": record["warnings"] + [f"shift screen failed: {screen['error']}"]}
+    out = {**record, "shifts": [s for s in screen["shifts"] if s["flagged"]],
+           "sink_smiles": screen.get("sink_smiles"), "degenerate_shifts": screen.get("degenerate_shifts", [])}
+    out["shift_summary"] = "; ".join(
+        f"{s['kind']} → {s['product_smiles']}"
+        + (f" (not a minimum: relaxes to {s['relaxed_to']})" if s.get("relaxed_to") else "")
+        + f" ΔG {s['dG_kcal_mol']:+.1f}; {s.get('barrier_status', 'barrier not computed')}"
+        for s in out["shifts"])
+    out["rearrangement"] = rearrangement_text(out)
+    return out
 
 
 def rearrangement_text(record: dict) -> str:

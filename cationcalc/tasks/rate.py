@@ -346,11 +346,12 @@ def _descriptor_needs(cation_smiles: str) -> dict[str, Species]:
 def add_rates(task: str, records: list[dict], settings: Settings, m: Medium | str, temperature_k: float, *,
               workers: int = 1, store: ResultStore | None = None, progress: Progress | None = None,
               force: bool = False) -> list[dict]:
-    """Kinetic keys on ``ionize`` and ``ladder`` records (a second pass at the descriptor's level).
+    """New ``ionize`` and ``ladder`` records with kinetic keys (a second pass at the descriptor's level).
 
     Where a rate exists the verdict speaks in time (the equilibrium verdict is kept
     as ``equilibrium_verdict``).  ``ladder``: every leaving group with an N_f in the
-    medium gets its half-life and a ``half_life_rank``; the others say why not.
+    medium gets its half-life and a ``half_life_rank``; the others say why not.  The
+    records given are not changed.
     """
     from cationcalc.execution.executors import SpeciesFailure, compute_many
     from cationcalc.chem.media import medium as lookup_medium
@@ -370,29 +371,33 @@ def add_rates(task: str, records: list[dict], settings: Settings, m: Medium | st
             estimates[cation] = "; ".join(failed)
             continue
         estimates[cation] = _electrofuge_estimate(cation, {role: results[sp] for role, sp in needs.items()})
-    for r in records:
-        if r.get("error") or not r.get("cation_smiles"):
-            continue
-        est = estimates[r["cation_smiles"]]
-        if isinstance(est, str):
-            r["rate_note"] = f"no rate: the E_f descriptor failed ({est})"
-            continue
-        try:
-            nf = nucleofugality(r["leaving_group"], m)
-        except InputError as exc:
-            r.update({"medium": m.code, "k_ion_per_s": None, "half_life_s": None, "half_life_text": "—",
-                      "rate_note": str(exc).split(";")[0] + " (no rate without it)"})
-            continue
-        fields = kinetic_fields(est, nf, m, r["substrate_smiles"], r["cation_class"], temperature_k)
-        r.update(fields)
-        if fields.get("rate_verdict"):  # words and numbers agree: with a rate, the verdict is about time
-            r["equilibrium_verdict"], r["equilibrium_verdict_reason"] = r.get("verdict"), r.get("verdict_reason")
-            r["verdict"], r["verdict_reason"] = fields["rate_verdict"], fields["rate_verdict_reason"]
+    out = [r if r.get("error") or not r.get("cation_smiles") else
+           _with_rate(r, estimates[r["cation_smiles"]], m, temperature_k) for r in records]
     if task == "ladder":
-        timed = sorted((r for r in records if r.get("half_life_s") is not None), key=lambda r: r["half_life_s"])
-        for rank, r in enumerate(timed, 1):
-            r["half_life_rank"] = rank
-    return records
+        timed = sorted((r for r in out if r.get("half_life_s") is not None), key=lambda r: r["half_life_s"])
+        rank_of = {id(r): rank for rank, r in enumerate(timed, 1)}
+        out = [{**r, "half_life_rank": rank_of[id(r)]} if id(r) in rank_of else r for r in out]
+    return out
+
+
+def _with_rate(record: dict, est: ElectrofugeEstimate | str, m: Medium, temperature_k: float) -> dict:
+    """A new record with the kinetic keys of its site (or why there is no rate); the verdict in time."""
+    out = dict(record)
+    if isinstance(est, str):
+        out["rate_note"] = f"no rate: the E_f descriptor failed ({est})"
+        return out
+    try:
+        nf = nucleofugality(record["leaving_group"], m)
+    except InputError as exc:
+        out.update({"medium": m.code, "k_ion_per_s": None, "half_life_s": None, "half_life_text": "—",
+                    "rate_note": str(exc).split(";")[0] + " (no rate without it)"})
+        return out
+    fields = kinetic_fields(est, nf, m, record["substrate_smiles"], record["cation_class"], temperature_k)
+    out.update(fields)
+    if fields.get("rate_verdict"):  # words and numbers agree: with a rate, the verdict is about time
+        out["equilibrium_verdict"], out["equilibrium_verdict_reason"] = out.get("verdict"), out.get("verdict_reason")
+        out["verdict"], out["verdict_reason"] = fields["rate_verdict"], fields["rate_verdict_reason"]
+    return out
 
 
 def rate_footer(records: list[dict]) -> list[str]:
@@ -424,9 +429,7 @@ def collate_rates(records: list[dict]) -> list[dict]:
     ok = [r for r in records if not r.get("error")]
     failed = [r for r in records if r.get("error")]
     ok.sort(key=lambda r: (r.get("lg_k_ion") is None, -(r.get("lg_k_ion") or r.get("lg_k_ion_computed") or 0)))
-    for rank, r in enumerate(ok, 1):
-        r["rank"] = rank
-    return ok + failed
+    return [{**r, "rank": rank} for rank, r in enumerate(ok, 1)] + failed
 
 
 def medium_rates(records: list[dict], options: dict, ctx: StepContext) -> list[dict]:

@@ -20,11 +20,14 @@ Example
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 from cationcalc.about import SAFETY_NOTE
 from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE
 from cationcalc.compute.models import Settings
-from cationcalc.execution.executors import Interrupted, SpeciesFailure, compute_many
+from cationcalc.execution.executors import Interrupted, Progress, SpeciesFailure, compute_many
+from cationcalc.execution.store import ResultStore
+from cationcalc.tasks.record_types import Record, typed_records
 from cationcalc.tasks.records import BatchInterrupted, Prepared
 from cationcalc.tasks.registry import StepContext, TaskNames, TaskSpec, spec
 
@@ -73,11 +76,9 @@ def _refine(task: TaskSpec, groups, finished_groups, results, settings, options,
         return task.refine(task.name, groups, finished_groups, results, settings, options,
                            workers=ctx["workers"], force=ctx["force"], store=ctx["store"]), False
     except KeyboardInterrupt:  # keep the GFN2-xTB records, labelled as not refined
-        for r in (r for finished in finished_groups for r in finished if not r.get("error")):
-            r["refine_level"] = None
-            r["warnings"] = list(r.get("warnings", [])) + [
-                f"DFT refinement interrupted: this value is {settings.level}"]
-        return finished_groups, True
+        from cationcalc.execution.refine import mark_unrefined
+
+        return [mark_unrefined(finished, settings.level) for finished in finished_groups], True
 
 
 def _annotate(task: TaskSpec, records: list[dict], settings: Settings, options: dict, refined: bool) -> list[dict]:
@@ -98,8 +99,9 @@ def _one_pass_each(task: TaskSpec, options: dict) -> list | None:
 
 
 def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, reference: str = DEFAULT_HIA_REFERENCE,
-             workers: int = 1, force: bool = False, progress=None, store=None, **options) -> list[dict]:
-    """Run one task over (input, name) pairs; records in input order.
+             workers: int = 1, force: bool = False, progress: Progress | None = None,
+             store: ResultStore | None = None, **options: Any) -> list[Record]:
+    """Run one task over (input, name) pairs; typed records (:mod:`cationcalc.tasks.record_types`) in input order.
 
     ``hia``, ``heterolysis``, ``thermo`` and ``ionize`` give one record per
     input; ``sites`` and ``ladder`` one per site or leaving group, ranked.
@@ -134,7 +136,7 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
     return _run(declared, items, settings, options, ctx)
 
 
-def _run(task: TaskSpec, items, settings: Settings, options: dict, ctx: dict) -> list[dict]:
+def _run(task: TaskSpec, items, settings: Settings, options: dict, ctx: dict) -> list[Record]:
     """prepare → compute → finish → refine → collate → further steps → error bars."""
     groups = [task.prepare(text, name, settings, options, ctx["force"]) for text, name in items]
     results, interrupted = _compute(groups, settings, {k: ctx[k] for k in ("workers", "progress", "store")})
@@ -154,6 +156,7 @@ def _run(task: TaskSpec, items, settings: Settings, options: dict, ctx: dict) ->
             interrupted = True
     if task.uncertainty is not None:
         records = _annotate(task, records, settings, options, refined)
+    records = typed_records(task.name, records)  # typed records from here on
     if interrupted:
         raise BatchInterrupted(records)
     return records

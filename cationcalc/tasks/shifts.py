@@ -40,6 +40,7 @@ from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.execution.executors import Interrupted, Progress, compute_many
 from cationcalc.execution.store import ResultStore
 from cationcalc.tasks.records import BatchInterrupted, record_base, species_profile
+from cationcalc.tasks.record_types import typed_records
 from cationcalc.tasks.registry import TaskOptions, TaskSpec, option, register
 from cationcalc.tasks.views import CATION, SUBSTRATE, Column
 from cationcalc.tasks.shift_search import (DEFAULT_BEAM, DEFAULT_CEILING_KCAL_MOL, DEFAULT_DEPTH, DEFAULT_MAX_SPECIES,
@@ -334,6 +335,7 @@ def run_shifts(items: Iterable[tuple[str, str]], settings: Settings, *, depth: i
         if barriers and not interrupted and "error" not in record:
             _add_barriers(record, search, settings, barrier_options or {})
         records.append(record)
+    records = typed_records("shifts", records)  # typed records from here on
     if interrupted:
         raise BatchInterrupted(records)
     return records

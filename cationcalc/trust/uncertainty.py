@@ -1,9 +1,10 @@
 """An uncertainty on every computed HIA and ΔG, and the calibrated HIA on request.
 
-:func:`annotate` adds ``<quantity>_uncertainty_kcal_mol`` to every record
-that carries the quantity (``hia``, ``hia_G``, ``dHIA_vs_tert_butyl``,
-``hia_vs_best``, ``dG_ion``, ``ddG_ion``, ``ddG_ion_vs_tert_butyl``,
-``dG_ion_vs_best`` for sites, ``dH_het``, ``dG_het``), plus
+:func:`annotate` returns new records (the ones given are not changed) with
+``<quantity>_uncertainty_kcal_mol`` beside every quantity the record carries
+(``hia``, ``hia_G``, ``dHIA_vs_tert_butyl``, ``hia_vs_best``, ``dG_ion``,
+``ddG_ion``, ``ddG_ion_vs_tert_butyl``, ``dG_ion_vs_best`` for sites,
+``dH_het``, ``dG_het``), plus
 ``uncertainty_basis`` saying where the number comes from.  All error bars
 are *root-mean-square* errors (kcal/mol), read from the residuals stored with
 the calibration of the level of theory (``data/calibration_residuals.csv``,
@@ -67,6 +68,8 @@ Example
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
+from dataclasses import dataclass
 
 from cationcalc.chem import units
 from cationcalc.trust.calibration import Calibration, calibration_for, class_group, gas_calibration
@@ -175,11 +178,28 @@ def _round(value: float) -> float:
     return round(float(value), 1)
 
 
-def annotate(task: str, records: list[dict], settings, calibrated: bool = False) -> list[dict]:
-    """Add ``<quantity>_uncertainty_kcal_mol`` to every record with a value; calibrate HIA on request.
+@dataclass(frozen=True)
+class _Bars:
+    """What every record of one annotate call shares: the calibration, how it is used, the best sites."""
 
-    Records are changed in place and returned.  Records with an ``error`` are
-    left alone.  See the module notes for what each error bar is.
+    task: str
+    cal: Calibration
+    can_calibrate: bool     # a calibration is stored for this level (not only the gas-phase fallback)
+    calibrated: bool        # calibration asked for
+    kind: str               # "loo" (calibrated) or "raw": which residuals give the HIA bars
+    basis_note: str
+    level: str
+    best: dict              # input → (class group, canonical cation) of its rank-1 record
+
+
+def annotate(task: str, records: list[Mapping], settings, calibrated: bool = False) -> list[dict]:
+    """New records with ``<quantity>_uncertainty_kcal_mol`` on every value; HIA calibrated on request.
+
+    The records given are not changed: each annotated record is a new flat
+    dict with the keys of the old one, in their order, then the new keys
+    (a calibrated value keeps its place, its raw value is added as
+    ``<quantity>_raw_kcal_mol``).  Records with an ``error`` come back as
+    they were.  See the module notes for what each error bar is.
     """
     cal = calibration_for(settings)
     can_calibrate = cal is not None
@@ -187,122 +207,149 @@ def annotate(task: str, records: list[dict], settings, calibrated: bool = False)
     if cal is None:
         cal = gas_calibration(settings.method)
         if cal is None:
-            for r in records:
-                if not r.get("error"):
-                    r["uncertainty_basis"] = "no calibration data bundled for this method: no error bars"
-                    r["calibrated"] = False
-            return records
+            return [r if r.get("error") else {**r, "uncertainty_basis": "no calibration data bundled for this "
+                                              "method: no error bars", "calibrated": False} for r in records]
         basis_note = (f"; no calibration at {settings.level}: gas-phase residuals used (the solvated HIA is a "
                       "relative scale, no solution-phase data to check it against)")
-    kind = "loo" if calibrated and can_calibrate else "raw"
-    best_group: dict[str, tuple[str | None, str | None]] = {}
-    for r in records:
-        if r.get("rank") == 1 and not r.get("error"):
-            best_group[r.get("input", "")] = (_group_of(r), _canonical_cation(r.get("cation_smiles")))
-    for r in records:
-        if r.get("error"):
-            continue
-        group = _group_of(r)
-        cation = _canonical_cation(r.get("cation_smiles"))
+    best = {r.get("input", ""): (_group_of(r), _canonical_cation(r.get("cation_smiles")))
+            for r in records if r.get("rank") == 1 and not r.get("error")}
+    bars = _Bars(task, cal, can_calibrate, calibrated, "loo" if calibrated and can_calibrate else "raw",
+                 basis_note, settings.level, best)
+    return [r if r.get("error") else _annotated(dict(r), bars) for r in records]
+
+
+def _annotated(r: dict, bars: _Bars) -> dict:
+    """One record with its error bars, in the order the keys are added (``r`` is a fresh copy)."""
+    group = _group_of(r)
+    cation = _canonical_cation(r.get("cation_smiles"))
+    did_calibrate = False
+    if r.get("hia_kcal_mol") is not None:
+        if bars.calibrated and bars.can_calibrate and cation != ANCHOR_SMILES:
+            r.update(_calibrated_hia(r, bars.cal))
+            did_calibrate = True
+        r.update(_hia_bars(r, 0.0 if cation == ANCHOR_SMILES else _absolute(bars.cal, group, bars.kind)))
+    for q in CATION_BOUND:
+        if r.get(f"{q}_kcal_mol") is not None:
+            r[f"{q}_uncertainty_kcal_mol"] = _round(_absolute(bars.cal, group, "raw"))
+    r.update(_ddg_bars(r, bars.cal, group, cation))
+    for q in ("hia", "dG_ion"):
+        if r.get(f"{q}_vs_best_kcal_mol") is not None and bars.task != "ladder":
+            r.update(_vs_best_bars(r, q, bars, group, cation, did_calibrate))
+    if not any(k.endswith("_uncertainty_kcal_mol") for k in r):
+        if bars.calibrated:  # e.g. thermo records: no HIA or ΔG to put a bar on or to calibrate
+            r.update({"calibrated": False, "calibration_note": "no HIA in this record: nothing to calibrate"})
+        return r
+    r.update(_basis(bars, group, did_calibrate, cation == ANCHOR_SMILES))
+    return r
+
+
+def _calibrated_hia(r: Mapping, cal: Calibration) -> dict:
+    """The calibrated HIA values, each raw value kept beside (in the order the keys are written)."""
+    raw = float(r["hia_kcal_mol"])
+    corrected = cal.apply(raw)
+    out = {"hia_raw_kcal_mol": raw, "hia_kcal_mol": round(corrected, 2),
+           "hia_kJ_mol": round(units.kcal_to_kj(corrected), 1)}
+    if r.get("hia_G_kcal_mol") is not None:
+        shifted = float(r["hia_G_kcal_mol"]) + (corrected - raw)
+        out.update({"hia_G_raw_kcal_mol": r["hia_G_kcal_mol"], "hia_G_kcal_mol": round(shifted, 2)})
+        if "hia_G_kJ_mol" in r:
+            out["hia_G_kJ_mol"] = round(units.kcal_to_kj(shifted), 1)
+    if r.get("dHIA_vs_tert_butyl_kcal_mol") is not None:
+        out["dHIA_vs_tert_butyl_raw_kcal_mol"] = r["dHIA_vs_tert_butyl_kcal_mol"]
+        if r.get("reference_hia_kcal_mol") is not None:
+            out["dHIA_vs_tert_butyl_kcal_mol"] = round(corrected - float(r["reference_hia_kcal_mol"]), 2)
+    return out
+
+
+def _hia_bars(r: Mapping, u: float) -> dict:
+    """The HIA error bar on HIA, ΔG-HIA and ΔHIA against tert-butyl (the same error)."""
+    out = {"hia_uncertainty_kcal_mol": _round(u)}
+    if r.get("hia_G_kcal_mol") is not None:
+        out["hia_G_uncertainty_kcal_mol"] = _round(u)
+    if r.get("dHIA_vs_tert_butyl_kcal_mol") is not None:
+        out["dHIA_vs_tert_butyl_uncertainty_kcal_mol"] = _round(u)
+    return out
+
+
+def _ddg_bars(r: Mapping, cal: Calibration, group: str | None, cation: str | None) -> dict:
+    """Error bars of ΔΔG_ion (against the reference substrate) and of ΔΔG_ion against tert-butyl."""
+    out = {}
+    if r.get("ddG_ion_kcal_mol") is not None:
+        ref = _reference_cation(r)
+        if ref is None or ref == cation:
+            u = 0.0 if ref == cation and ref is not None else _absolute(cal, group, "raw")
+        elif ref == ANCHOR_SMILES:
+            u = _absolute(cal, group, "raw")
+        else:
+            u = _relative(cal, group, _group_of({"cation_smiles": ref}), "raw")
+        out["ddG_ion_uncertainty_kcal_mol"] = _round(u)
+        out["ddG_ion_uncertainty_basis"] = (
+            "the same cation as the reference: no difference error" if u == 0.0 else
+            _difference_basis(cal, group, _group_of({"cation_smiles": ref}), "raw")
+            if ref not in (None, ANCHOR_SMILES) else
+            "against the tert-butyl cation, the exact anchor of the reference residuals: the RMS "
+            "residual of this cation's group (each residual is already a difference from tert-butyl)")
+    if r.get("ddG_ion_vs_tert_butyl_kcal_mol") is not None:
         is_anchor = cation == ANCHOR_SMILES
-        did_calibrate = False
-        if "hia_kcal_mol" in r and r["hia_kcal_mol"] is not None:
-            if calibrated and can_calibrate and not is_anchor:
-                raw = float(r["hia_kcal_mol"])
-                corrected = cal.apply(raw)
-                r["hia_raw_kcal_mol"] = raw
-                r["hia_kcal_mol"] = round(corrected, 2)
-                r["hia_kJ_mol"] = round(units.kcal_to_kj(corrected), 1)
-                if r.get("hia_G_kcal_mol") is not None:
-                    r["hia_G_raw_kcal_mol"] = r["hia_G_kcal_mol"]
-                    shifted = float(r["hia_G_kcal_mol"]) + (corrected - raw)
-                    r["hia_G_kcal_mol"] = round(shifted, 2)
-                    if "hia_G_kJ_mol" in r:
-                        r["hia_G_kJ_mol"] = round(units.kcal_to_kj(shifted), 1)
-                if r.get("dHIA_vs_tert_butyl_kcal_mol") is not None:
-                    r["dHIA_vs_tert_butyl_raw_kcal_mol"] = r["dHIA_vs_tert_butyl_kcal_mol"]
-                    r["dHIA_vs_tert_butyl_kcal_mol"] = round(corrected - float(r["reference_hia_kcal_mol"]), 2) \
-                        if r.get("reference_hia_kcal_mol") is not None else r["dHIA_vs_tert_butyl_kcal_mol"]
-                did_calibrate = True
-            u = 0.0 if is_anchor else _absolute(cal, group, kind)
-            r["hia_uncertainty_kcal_mol"] = _round(u)
-            if r.get("hia_G_kcal_mol") is not None:
-                r["hia_G_uncertainty_kcal_mol"] = _round(u)
-            if r.get("dHIA_vs_tert_butyl_kcal_mol") is not None:
-                r["dHIA_vs_tert_butyl_uncertainty_kcal_mol"] = _round(u)
-        for q in CATION_BOUND:
-            if r.get(f"{q}_kcal_mol") is not None:
-                r[f"{q}_uncertainty_kcal_mol"] = _round(_absolute(cal, group, "raw"))
-        if r.get("ddG_ion_kcal_mol") is not None:
-            ref = _reference_cation(r)
-            if ref is None or ref == cation:
-                u = 0.0 if ref == cation and ref is not None else _absolute(cal, group, "raw")
-            elif ref == ANCHOR_SMILES:
-                u = _absolute(cal, group, "raw")
-            else:
-                u = _relative(cal, group, _group_of({"cation_smiles": ref}), "raw")
-            r["ddG_ion_uncertainty_kcal_mol"] = _round(u)
-            r["ddG_ion_uncertainty_basis"] = (
-                "the same cation as the reference: no difference error" if u == 0.0 else
-                _difference_basis(cal, group, _group_of({"cation_smiles": ref}), "raw")
-                if ref not in (None, ANCHOR_SMILES) else
-                "against the tert-butyl cation, the exact anchor of the reference residuals: the RMS "
-                "residual of this cation's group (each residual is already a difference from tert-butyl)")
-        if r.get("ddG_ion_vs_tert_butyl_kcal_mol") is not None:
-            r["ddG_ion_vs_tert_butyl_uncertainty_kcal_mol"] = _round(0.0 if is_anchor else _absolute(cal, group, "raw"))
-            r["ddG_ion_vs_tert_butyl_uncertainty_basis"] = (
-                "the tert-butyl cation itself" if is_anchor else
-                "RMS residual of this cation's class group against the tert-butyl anchor (each residual is a "
-                f"difference from tert-butyl; calibration_residuals.csv, {cal.id})")
-        for q in ("hia", "dG_ion"):
-            key = f"{q}_vs_best_kcal_mol"
-            if r.get(key) is None or task == "ladder":
-                continue
-            b_group, b_cation = best_group.get(r.get("input", ""), (None, None))
-            if calibrated and q == "hia" and did_calibrate:
-                r[f"{key[:-9]}_raw_kcal_mol"] = r[key]
-                r[key] = round(cal.a * float(r[key]), 2)
-            how = kind if q == "hia" else "raw"
-            if b_cation is not None and b_cation == cation:
-                u, basis = 0.0, "the same cation as the best site: no difference error"
-            elif b_cation == ANCHOR_SMILES:
-                u = _absolute(cal, group, how)
-                basis = "against tert-butyl, the exact anchor: the RMS error of this cation's group"
-            elif cation == ANCHOR_SMILES:
-                u = _absolute(cal, b_group, how)
-                basis = "against tert-butyl, the exact anchor: the RMS error of the best site's group"
-            else:
-                u = _relative(cal, group, b_group, how)
-                basis = _difference_basis(cal, group, b_group, how)
-            r[f"{q}_vs_best_uncertainty_kcal_mol"] = _round(u)
-            r[f"{q}_vs_best_uncertainty_basis"] = basis
-        if not any(k.endswith("_uncertainty_kcal_mol") for k in r):
-            if calibrated:  # e.g. thermo records: no HIA or ΔG to put a bar on or to calibrate
-                r["calibrated"] = False
-                r["calibration_note"] = "no HIA in this record: nothing to calibrate"
-            continue
-        which = "leave-one-out RMS error of the calibration" if (calibrated and did_calibrate) else \
-            "RMS error of the raw values (bias included)"
-        own = group is not None and cal.error_model(group, "raw")[3]
-        scope = (f"class group {group} (n {cal.error_model(group, 'raw')[2]})" if own else
-                 f"whole set (n {cal.n}; class group {group or 'unknown'} has fewer than 3 reference cations)")
-        r["uncertainty_basis"] = (f"{which} against the gas-phase HIA set, {scope}, {cal.id}; ΔG_ion/ΔG_het: "
-                                  "the cation's HIA error (leaving-group and solvation errors not included); "
-                                  "differences: error of the difference" + basis_note)
-        r["calibrated"] = did_calibrate
-        if did_calibrate:
-            r["calibration_id"] = cal.id
-            r["calibration"] = f"HIA_exp ≈ {cal.a:.4f}·HIA_calc {cal.b:+.2f} (n {cal.n}, LOO RMSE " \
-                               f"{cal.loo_rmse_kcal_mol:.1f} kcal/mol)"
-        elif calibrated:
-            if not can_calibrate:
-                r["calibration_note"] = (f"no calibration is stored for {settings.level} (only gas-phase HIA "
-                                         "experiment exists to fit one): values are raw")
-            elif is_anchor:
-                r["calibration_note"] = "the anchor's HIA is the experimental value; nothing to calibrate"
-            else:
-                r["calibration_note"] = "the calibration corrects HIA only; this record's values are raw"
-    return records
+        out["ddG_ion_vs_tert_butyl_uncertainty_kcal_mol"] = _round(0.0 if is_anchor else
+                                                                   _absolute(cal, group, "raw"))
+        out["ddG_ion_vs_tert_butyl_uncertainty_basis"] = (
+            "the tert-butyl cation itself" if is_anchor else
+            "RMS residual of this cation's class group against the tert-butyl anchor (each residual is a "
+            f"difference from tert-butyl; calibration_residuals.csv, {cal.id})")
+    return out
+
+
+def _vs_best_bars(r: Mapping, q: str, bars: _Bars, group: str | None, cation: str | None,
+                  did_calibrate: bool) -> dict:
+    """Error bar of the gap to the input's best site (``q`` = hia or dG_ion); calibrated HIA gap on request."""
+    key = f"{q}_vs_best_kcal_mol"
+    cal = bars.cal
+    out = {}
+    b_group, b_cation = bars.best.get(r.get("input", ""), (None, None))
+    if bars.calibrated and q == "hia" and did_calibrate:
+        out.update({f"{q}_vs_best_raw_kcal_mol": r[key], key: round(cal.a * float(r[key]), 2)})
+    how = bars.kind if q == "hia" else "raw"
+    if b_cation is not None and b_cation == cation:
+        u, basis = 0.0, "the same cation as the best site: no difference error"
+    elif b_cation == ANCHOR_SMILES:
+        u = _absolute(cal, group, how)
+        basis = "against tert-butyl, the exact anchor: the RMS error of this cation's group"
+    elif cation == ANCHOR_SMILES:
+        u = _absolute(cal, b_group, how)
+        basis = "against tert-butyl, the exact anchor: the RMS error of the best site's group"
+    else:
+        u = _relative(cal, group, b_group, how)
+        basis = _difference_basis(cal, group, b_group, how)
+    out.update({f"{q}_vs_best_uncertainty_kcal_mol": _round(u), f"{q}_vs_best_uncertainty_basis": basis})
+    return out
+
+
+def _basis(bars: _Bars, group: str | None, did_calibrate: bool, is_anchor: bool) -> dict:
+    """Where the bars come from, and whether (and why not) the values are calibrated."""
+    cal = bars.cal
+    which = "leave-one-out RMS error of the calibration" if (bars.calibrated and did_calibrate) else \
+        "RMS error of the raw values (bias included)"
+    own = group is not None and cal.error_model(group, "raw")[3]
+    scope = (f"class group {group} (n {cal.error_model(group, 'raw')[2]})" if own else
+             f"whole set (n {cal.n}; class group {group or 'unknown'} has fewer than 3 reference cations)")
+    out = {"uncertainty_basis": (f"{which} against the gas-phase HIA set, {scope}, {cal.id}; ΔG_ion/ΔG_het: "
+                                 "the cation's HIA error (leaving-group and solvation errors not included); "
+                                 "differences: error of the difference" + bars.basis_note),
+           "calibrated": did_calibrate}
+    if did_calibrate:
+        out["calibration_id"] = cal.id
+        out["calibration"] = (f"HIA_exp ≈ {cal.a:.4f}·HIA_calc {cal.b:+.2f} (n {cal.n}, LOO RMSE "
+                              f"{cal.loo_rmse_kcal_mol:.1f} kcal/mol)")
+    elif bars.calibrated:
+        if not bars.can_calibrate:
+            out["calibration_note"] = (f"no calibration is stored for {bars.level} (only gas-phase HIA "
+                                       "experiment exists to fit one): values are raw")
+        elif is_anchor:
+            out["calibration_note"] = "the anchor's HIA is the experimental value; nothing to calibrate"
+        else:
+            out["calibration_note"] = "the calibration corrects HIA only; this record's values are raw"
+    return out
 
 
 __all__ = ["annotate", "format_value", "pair_difference_rms"]
