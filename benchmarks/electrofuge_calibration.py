@@ -32,9 +32,10 @@ DATA = Path(__file__).resolve().parent.parent / "cationcalc" / "data" / "cation_
 COLUMNS = ["cation_smiles", "level", "hia_kcal_mol", "hia_G_kcal_mol", "package_version", "computed"]
 
 
-def compute(solvents: list[str], store_path: str | None, workers: int, refine: str | None = None) -> list[dict]:
-    cations = {**{k: r["name"] for k, r in published_electrofugalities().items()},
-               **{k: r["name"] for k, r in published_electrophilicities().items()}}
+def compute(solvents: list[str], store_path: str | None, workers: int, refine: str | None = None,
+            scales: tuple[str, ...] = ("E_f", "E")) -> list[dict]:
+    cations = {**({k: r["name"] for k, r in published_electrofugalities().items()} if "E_f" in scales else {}),
+               **({k: r["name"] for k, r in published_electrophilicities().items()} if "E" in scales else {})}
     store = ResultStore(store_path) if store_path else None
     rows = []
     for solvent in solvents:
@@ -77,9 +78,12 @@ def main() -> int:
     parser.add_argument("--store", default=None)
     parser.add_argument("--workers", type=int, default=2)
     parser.add_argument("--refine", default=None, help="DFT level of the DFT//xTB descriptor, e.g. B3LYP-D3BJ/def2-SVP")
+    parser.add_argument("--scales", nargs="+", default=["E_f", "E"], choices=["E_f", "E"],
+                        help="reference cations of these scales (default both; E_f alone: its 22 cations, of which "
+                             "7 also calibrate E)")
     parser.add_argument("--write", action="store_true", help="write cationcalc/data/cation_descriptors.csv")
     args = parser.parse_args()
-    rows = compute(args.solvents, args.store, args.workers, args.refine)
+    rows = compute(args.solvents, args.store, args.workers, args.refine, tuple(args.scales))
     if args.write:
         levels = {r["level"] for r in rows}
         with DATA.open(encoding="utf-8") as handle:

@@ -74,6 +74,7 @@ from typing import Callable, Sequence
 
 from cationcalc.chem import units
 from cationcalc.compute.models import Profile, Settings, SpeciesResult
+from cationcalc.execution.store import ResultStore
 
 #: what an unlabelled --refine uses (see the module notes for why)
 DEFAULT_LEVEL = "wB97X-D3BJ/def2-TZVP"
@@ -349,7 +350,7 @@ def refine_result(result: SpeciesResult, level: str | Level, settings: Settings,
 
 
 def refine_many(results: dict, level: str | Level, settings: Settings, *, force: bool = False,
-                threads: int | None = None, store=None, log: Callable[[str], None] | None = None) -> dict:
+                threads: int | None = None, store: ResultStore | None = None, log: Callable[[str], None] | None = None) -> dict:
     """Refine every SpeciesResult in ``results`` (key → result); failures become SpeciesFailure.
 
     Estimates are sent to ``log`` (one line per species, then a total) before
@@ -499,7 +500,7 @@ def refine_note(level: Level, settings: Settings) -> str:
 
 def refine_task_records(task: str, groups: list, finished_groups: list[list[dict]], results: dict,
                         settings: Settings, options: dict, *, workers: int = 1, force: bool = False,
-                        store=None) -> list[list[dict]]:
+                        store: ResultStore | None = None) -> list[list[dict]]:
     """New records for the selected requests, rebuilt from refined species (``_xtb`` twins beside).
 
     ``groups`` are the prepared requests (:class:`~cationcalc.tasks.records.Prepared`)

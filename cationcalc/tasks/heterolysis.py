@@ -15,6 +15,7 @@ from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.compute.properties import heterolysis_energy
 from cationcalc.execution.refine import refine_task_records
 from cationcalc.tasks.records import Prepared, collect_warnings, record_base, species_profile
+from cationcalc.tasks.record_types import HeterolysisRecord
 from cationcalc.tasks.registry import RefinableOptions, TaskSpec, register
 from cationcalc.tasks.views import SUBSTRATE, Column
 from cationcalc.trust.uncertainty import annotate
@@ -61,7 +62,8 @@ def _prepare(text: str, name: str, settings: Settings, options: dict, force: boo
 
 
 HETEROLYSIS = register(TaskSpec(
-    name="heterolysis", help="R–X → R⁺ + X⁻ energies for alkyl halides", options=RefinableOptions,
+    name="heterolysis", record=HeterolysisRecord,
+    help="R–X → R⁺ + X⁻ energies for alkyl halides", options=RefinableOptions,
     headline="dG_het_kcal_mol",
     view=(SUBSTRATE, Column("leaving_group", "leaving group"),
           Column("dG_het_kcal_mol", "ΔG_het (kcal/mol)", "value", "dG_het_uncertainty_kcal_mol"),

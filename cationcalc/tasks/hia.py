@@ -21,6 +21,7 @@ from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.compute.properties import hydride_ion_affinity
 from cationcalc.execution.refine import refine_task_records
 from cationcalc.tasks.records import Prepared, collect_warnings, record_base, species_profile
+from cationcalc.tasks.record_types import HiaRecord
 from cationcalc.tasks.registry import RefinableOptions, TaskSpec, option, register
 from cationcalc.tasks.views import CATION, HIA as HIA_COLUMN, SUBSTRATE, Column, relaxed_label
 from cationcalc.trust.uncertainty import annotate
@@ -85,7 +86,8 @@ def _prepare(text: str, name: str, settings: Settings, options: dict, force: boo
 
 
 HIA = register(TaskSpec(
-    name="hia", help="hydride-ion affinities of carbocations", options=HiaOptions, headline="hia_kcal_mol",
+    name="hia", record=HiaRecord,
+    help="hydride-ion affinities of carbocations", options=HiaOptions, headline="hia_kcal_mol",
     view=(SUBSTRATE, CATION, HIA_COLUMN,
           Column("hia_G_kcal_mol", "ΔG-HIA (kcal/mol)", "value", "hia_G_uncertainty_kcal_mol"),
           Column("relaxed", "relaxed to", "smiles", get=relaxed_label)),

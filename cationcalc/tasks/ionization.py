@@ -46,6 +46,7 @@ from cationcalc.execution.executors import Progress
 from cationcalc.execution.refine import refine_task_records
 from cationcalc.execution.store import ResultStore
 from cationcalc.tasks.rate import medium_rates
+from cationcalc.tasks.record_types import IonizeRecord, LadderRecord, SitesRecord
 from cationcalc.tasks.registry import RefinableOptions, StepContext, TaskSpec, option, register, with_defaults
 from cationcalc.tasks.views import (CATION, DDG_ION, DG_ION, HALF_LIFE, HIA, LG_K, REARRANGEMENT, SITE, SUBSTRATE,
                                     VERDICT, Column, site_tier)
@@ -457,7 +458,8 @@ _WIDE_SHIFT = ("shift_summary", "downhill 1,2-shift (ΔG)")
 _HOOKS = dict(refine=refine_task_records, uncertainty=annotate)
 
 IONIZE = register(TaskSpec(
-    name="ionize", help="ΔG of ionization R–X → R⁺ + X in a solvent, with a verdict", options=IonizeOptions,
+    name="ionize", record=IonizeRecord,
+    help="ΔG of ionization R–X → R⁺ + X in a solvent, with a verdict", options=IonizeOptions,
     headline="dG_ion_kcal_mol",
     view=(SUBSTRATE, SITE, CATION, DG_ION, DDG_ION, HALF_LIFE, VERDICT, REARRANGEMENT),
     wide=(("name", "name"), ("substrate_smiles", "substrate"), ("leaving_group", "X"), ("site_atom", "atom"),
@@ -469,7 +471,8 @@ IONIZE = register(TaskSpec(
     prepare=_ionize, collate=partial(collate, "ionize"), after=(screen_shifts, medium_rates), **_HOOKS))
 
 SITES = register(TaskSpec(
-    name="sites", help="rank every ionization site of a substrate (or every C–H by HIA)", options=SitesOptions,
+    name="sites", record=SitesRecord,
+    help="rank every ionization site of a substrate (or every C–H by HIA)", options=SitesOptions,
     headline="dG_ion_kcal_mol",
     view=(SUBSTRATE, Column("rank", "rank", "int"), Column("tier", "site tier", get=site_tier), SITE, CATION,
           DG_ION,
@@ -486,7 +489,8 @@ SITES = register(TaskSpec(
     prepare=_sites, collate=partial(collate, "sites"), after=(screen_shifts,), calibrated=True, **_HOOKS))
 
 LADDER = register(TaskSpec(
-    name="ladder", help="ΔG_ion of one skeleton (written with *) for every leaving group", options=LadderOptions,
+    name="ladder", record=LadderRecord,
+    help="ΔG_ion of one skeleton (written with *) for every leaving group", options=LadderOptions,
     headline="dG_ion_kcal_mol",
     view=(SUBSTRATE, Column("rank", "rank", "int"), Column("leaving_group", "leaving group"), DG_ION,
           Column("dG_ion_vs_best_kcal_mol", "ΔG_ion − best (kcal/mol)", "value"),

@@ -35,12 +35,13 @@ from __future__ import annotations
 import math
 from functools import lru_cache
 
-from pydantic import field_validator
+from pydantic import field_validator, model_validator
 from rdkit import Chem
 
 from cationcalc.chem import units
-from cationcalc.trust.electrofuges import (DESCRIPTOR_SOLVENT, ElectrofugeEstimate, electrofugality_calibration,
-                           estimate_electrofuge)
+from cationcalc.trust.electrofuges import (DESCRIPTOR_SOLVENT, DFT_DESCRIPTOR_LEVEL, ElectrofugeEstimate,
+                                           calibrated_levels, descriptor_level, electrofugality_calibration,
+                                           estimate_electrofuge)
 from cationcalc.chem.ionization import heterolysis_sites, structurally_flagged
 from cationcalc.chem.kinetics import (EQUATION_ERROR_LG, ELECTROFUGE_TEMPERATURE_K, FREE_CATION_CAPTURE_LIMIT_PER_S,
                        MAYR_PATZ_TEMPERATURE_K, RATE_TEMPERATURE_RANGE_K, activation_parameters, combined,
@@ -54,7 +55,9 @@ from cationcalc.execution.store import ResultStore
 from cationcalc.trust.nucleofuges import Nucleofugality, nucleofugality
 from cationcalc.compute.properties import hydride_ion_affinity
 from cationcalc.tasks.records import Prepared, record_base, collect_warnings, species_profile
-from cationcalc.tasks.registry import StepContext, TaskOptions, TaskSpec, option, register
+from cationcalc.execution.refine import refine_task_records
+from cationcalc.tasks.record_types import RateRecord
+from cationcalc.tasks.registry import RefinableOptions, StepContext, TaskSpec, option, register
 from cationcalc.tasks.views import HALF_LIFE, LG_K, SITE, SUBSTRATE, VERDICT, Column, nucleofugality_label
 from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE, hia_reference, load_table
 from cationcalc.chem.species import InputError, Species, carbocation, hydride_adduct
@@ -130,8 +133,8 @@ def _rule(klass: str) -> dict:
             or next(r for r in rules if r["class"] == "*"))
 
 
-@lru_cache(maxsize=1)
-def tert_butyl_check() -> list[dict]:
+@lru_cache(maxsize=None)
+def tert_butyl_check(level: str | None = None) -> list[dict]:
     """Predicted against published lg k for every tert-butyl chloride row of the bundled rate set.
 
     The tert-butyl cation is the anchor of the hydride exchange, so its
@@ -141,7 +144,7 @@ def tert_butyl_check() -> list[dict]:
     from cationcalc.chem.media import medium
 
     anchor = hia_reference(DEFAULT_HIA_REFERENCE)
-    est = estimate_electrofuge(anchor.cation_smiles, anchor.hia_kcal_mol)
+    est = estimate_electrofuge(anchor.cation_smiles, anchor.hia_kcal_mol, level)
     out = []
     for row in load_table("solvolysis_rates"):
         if row["substrate_smiles"] != "CC(C)(C)Cl":
@@ -156,12 +159,13 @@ def tert_butyl_check() -> list[dict]:
     return out
 
 
-def applicability(klass: str) -> tuple[str, float]:
-    """('calibrated: …' / 'checked: …' / 'uncalibrated class: …' / 'outside the SN1 model: …', extra log error)."""
+def applicability(klass: str, level: str | None = None) -> tuple[str, float]:
+    """('calibrated: …' / 'checked: …' / 'uncalibrated class: …' / 'outside the SN1 model: …', extra log error);
+    the tert-butyl check is made with the E_f calibration at the descriptor's ``level``."""
     rule = _rule(klass)
     kind = rule["applicability"]
     if kind == "checked":
-        rows = tert_butyl_check()
+        rows = tert_butyl_check(level)
         worst = max(abs(r["error"]) for r in rows)
         detail = "; ".join(f"{r['medium']} {r['lg_k_predicted']:+.2f} vs {r['lg_k_published']:+.2f}" for r in rows)
         if worst <= TERT_BUTYL_CHECK_LG:
@@ -205,7 +209,7 @@ def kinetic_fields(est: ElectrofugeEstimate, nf: Nucleofugality, m: Medium, subs
                    cation_class: str, temperature_k: float) -> dict:
     """Every kinetic key of a record: pure arithmetic over the estimate, the tables and the temperature."""
     klass = rate_class(est.cation_smiles, cation_class)
-    verdict_of_class, class_error = applicability(klass)
+    verdict_of_class, class_error = applicability(klass, est.level)
     lg_298 = lg_k_ionization(est.E_f, nf.N_f, nf.s_f)
     lg_298_computed = lg_k_ionization(est.E_f_computed, nf.N_f, nf.s_f)
     activation = activation_parameters(substrate_smiles, m.code, 10.0 ** lg_298)
@@ -220,7 +224,7 @@ def kinetic_fields(est: ElectrofugeEstimate, nf: Nucleofugality, m: Medium, subs
     if covered is False:
         notes.append(f"E_f {est.E_f:+.2f} outside the N_f fit range {nf.range_text()}: extrapolated")
     if not est.descriptor_in_range:
-        low, high = electrofugality_calibration().descriptor_range()
+        low, high = electrofugality_calibration(est.level).descriptor_range()
         notes.append(f"HIA {est.descriptor_kcal_mol:.1f} kcal/mol outside the E_f calibration's "
                      f"{low:.1f}–{high:.1f}: extrapolated")
     if nf.estimated:
@@ -237,7 +241,7 @@ def kinetic_fields(est: ElectrofugeEstimate, nf: Nucleofugality, m: Medium, subs
         "applicability_status": verdict_of_class.split(":")[0],
         "E_f": round(est.E_f, 2), "E_f_computed": round(est.E_f_computed, 2),
         "E_f_computed_uncertainty": round(est.E_f_computed_uncertainty, 2), "E_f_source": est.E_f_source,
-        "descriptor_hia_kcal_mol": round(est.descriptor_kcal_mol, 2),
+        "descriptor_hia_kcal_mol": round(est.descriptor_kcal_mol, 2), "descriptor_level": est.level,
         "N_f": round(nf.N_f, 2), "s_f": round(nf.s_f, 2), "nucleofugality_source": f"{nf.source} [{nf.status}]",
         "nucleofugality_estimated": nf.estimated, "N_f_fit_range": nf.range_text(),
         "lg_k_ion_computed": round(lg_t_computed, 2), "lg_k_ion_computed_uncertainty": round(uncertainty_computed, 2),
@@ -331,7 +335,7 @@ def _electrofuge_estimate(cation_smiles: str, by_role: dict[str, SpeciesResult])
     """E_f and E of a cation from the results of its descriptor species (roles as in _descriptor_needs)."""
     hia = hydride_ion_affinity(by_role["cation"], by_role["adduct"], by_role["reference_cation"],
                                by_role["reference_adduct"], hia_reference(DEFAULT_HIA_REFERENCE))
-    return estimate_electrofuge(cation_smiles, hia.hia_kcal_mol)
+    return estimate_electrofuge(cation_smiles, hia.hia_kcal_mol, level=by_role["cation"].level)
 
 
 def _descriptor_needs(cation_smiles: str) -> dict[str, Species]:
@@ -407,7 +411,7 @@ def rate_footer(records: list[dict]) -> list[str]:
     timed = [r for r in records if not r.get("error") and r.get("medium") and r.get("E_f") is not None]
     if not timed:
         return []
-    cal = electrofugality_calibration()
+    cal = electrofugality_calibration(timed[0].get("descriptor_level"))
     lines = [RATE_NOTE + ".",
              f"E_f computed from HIA at {cal.level}: E_f = {cal.a:.4f}·HIA {cal.b:+.2f} over {cal.n} benzhydrylium "
              f"ions (r {cal.r:.3f}, leave-one-out MAE {cal.loo_mae:.2f}, RMSE {cal.loo_rmse:.2f}); published E_f "
@@ -451,7 +455,7 @@ def _known_media(value) -> list[str]:
     return [medium(str(v)).code for v in values]  # InputError (a ValueError) lists the known media
 
 
-class RateOptions(TaskOptions):
+class RateOptions(RefinableOptions):
     medium: list[str] = option(..., "solvolysis medium as the trade writes it: 80E20W, '80% ethanol', "
                                     "'ethanol/water 80:20', '97% TFE (w/w)', acetone, water", min_length=1)
     temperature_k: float = option(ELECTROFUGE_TEMPERATURE_K, "temperature in K for k and the half-life "
@@ -460,6 +464,16 @@ class RateOptions(TaskOptions):
 
     _medium = field_validator("medium", mode="before")(classmethod(lambda cls, v: _known_media(v)))
     _temperature = field_validator("temperature_k")(classmethod(lambda cls, v: check_temperature(v)))
+
+    @model_validator(mode="after")
+    def _calibrated_descriptor_level(self):
+        """A refined descriptor needs an E_f calibration at that level (the DFT//xTB level of the bundled table)."""
+        if self.refine is not None:
+            level = descriptor_level(DESCRIPTOR_SOLVENT, self.refine)
+            if level not in calibrated_levels():
+                raise ValueError(f"no E_f calibration at {self.refine}: refine the rate task at "
+                                 f"{DFT_DESCRIPTOR_LEVEL} (the DFT//xTB descriptor of the bundled E_f calibration)")
+        return self
 
 
 def _prepare(text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
@@ -473,7 +487,8 @@ def _collate(records: list[dict], settings: Settings) -> list[dict]:
 
 
 RATE = register(TaskSpec(
-    name="rate", help="rate constant, half-life and cation lifetime of R–X in a solvolysis medium",
+    name="rate", record=RateRecord,
+    help="rate constant, half-life and cation lifetime of R–X in a solvolysis medium",
     options=RateOptions, headline="lg_k_ion",
     view=(SUBSTRATE, SITE, Column("medium", "medium"), HALF_LIFE, LG_K,
           Column("E_f", "E_f", "value", digits=2), Column("N_f", "N_f / s_f", get=nucleofugality_label),
@@ -483,8 +498,8 @@ RATE = register(TaskSpec(
           ("half_life_range_text", "range (± u)"), ("E_f", "E_f"), ("N_f", "N_f"), ("s_f", "s_f"),
           ("lifetime_text", "cation lifetime"), ("applicability_status", "model"), ("verdict", "verdict")),
     title="ionization rate R–X → R⁺ + X⁻", report_title="how fast does it ionize? (rate, half-life)",
-    prepare=_prepare, collate=_collate, fixed_level=descriptor_settings, one_pass_per="medium",
-    level_options=False))
+    prepare=_prepare, collate=_collate, refine=refine_task_records, fixed_level=descriptor_settings,
+    one_pass_per="medium", level_options=False))
 
 
 __all__ = ["RATE", "RateOptions", "medium_rates", "prepare_rate", "collate_rates", "add_rates", "rate_footer", "rate_options", "kinetic_fields", "lifetime_fields", "applicability", "rate_class",

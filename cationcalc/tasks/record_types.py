@@ -36,11 +36,13 @@ Example
 from __future__ import annotations
 
 from collections.abc import Iterator, Mapping
+from functools import lru_cache
 from typing import Any, Iterable
 
 from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, create_model, model_serializer
 
 from cationcalc.execution.refine import xtb_key
+from cationcalc.tasks.registry import SpecField
 
 def _d(text: str, default: Any = None) -> Any:
     """An optional field described once."""
@@ -311,6 +313,8 @@ class Kinetics(RateValues):
     rate_temperature_k: float | None = _d("temperature of the rate constant, K")
     medium_name: str | None = _d("the medium in words")
     rate_class: str | None = _d("class the applicability rules speak of (diarylmethyl, tertiary, …)")
+    descriptor_level: str | None = _d("level of the HIA descriptor and of the E_f and E calibrations used "
+                                      "(GFN2-xTB (gas), or DFT//xTB with --refine)")
     applicability: str | None = _d("is the class inside the rate model's calibration, and why")
     applicability_status: str | None = _d("calibrated, checked, uncalibrated class or outside the SN1 model")
     E_f: float | None = _d("electrofugality of the cation used (published where tabulated)")
@@ -448,30 +452,50 @@ class ShiftsRecord(ShiftScreen, Outcome, Inputs):
     skipped: list[Any] | None = _d("shifts not enumerated, with the reason")
 
 
-#: the record model of each task
-MODELS: dict[str, type[Record]] = {
-    "hia": HiaRecord, "heterolysis": HeterolysisRecord, "thermo": ThermoRecord, "ionize": IonizeRecord,
-    "sites": SitesRecord, "ladder": LadderRecord, "rate": RateRecord, "shifts": ShiftsRecord}
+class OpenRecord(Outcome, Inputs):
+    """The record of a task that declares no model of its own: the shared keys typed, its own keys as they are."""
+
+    model_config = ConfigDict(extra="allow")
 
 
-def _failure_model(task: str, model: type[Record]) -> type[Record]:
+@lru_cache(maxsize=None)
+def failure_model(model: type[Record]) -> type[Record]:
+    """The failure model of a record model: a required ``error`` and the keys the task knew before it failed."""
     name = model.__name__.replace("Record", "Failure")
     return type(name, (Failure, model), {"__module__": __name__,
-                                          "__doc__": f"A failed ``{task}`` request: the error and what was known."})
+                                          "__doc__": "A failed request: the error and what was known."})
 
 
-#: the failure model of each task (a failure carries the keys its task knew before it failed)
-FAILURES: dict[str, type[Record]] = {task: _failure_model(task, model) for task, model in MODELS.items()}
+#: task name → its record model, as each task's spec declares it (read afresh from the registry)
+MODELS = SpecField("record")
+
+
+class _Failures(Mapping):
+    """Task name → the failure model of its record model."""
+
+    def __getitem__(self, task: str) -> type[Record]:
+        return failure_model(MODELS[task] or OpenRecord)
+
+    def __iter__(self):
+        return iter(MODELS)
+
+    def __len__(self) -> int:
+        return len(MODELS)
+
+
+#: task name → its failure model (a failure carries the keys its task knew before it failed)
+FAILURES = _Failures()
 HiaFailure, HeterolysisFailure, ThermoFailure, IonizeFailure, SitesFailure, LadderFailure, RateFailure, \
-    ShiftsFailure = FAILURES.values()
+    ShiftsFailure = (failure_model(m) for m in (HiaRecord, HeterolysisRecord, ThermoRecord, IonizeRecord, SitesRecord,
+                                                 LadderRecord, RateRecord, ShiftsRecord))
 
 
 def typed_record(task: str, values: Mapping[str, Any]) -> Record:
     """The typed record of one task's flat record (its failure model when it carries an ``error``)."""
     if isinstance(values, Record):
         return values
-    model = FAILURES[task] if values.get("error") is not None else MODELS[task]
-    return model.from_dict(values)
+    model = MODELS[task] or OpenRecord
+    return (failure_model(model) if values.get("error") is not None else model).from_dict(values)
 
 
 def typed_records(task: str, records: Iterable[Mapping[str, Any]]) -> list[Record]:
@@ -479,7 +503,8 @@ def typed_records(task: str, records: Iterable[Mapping[str, Any]]) -> list[Recor
     return [typed_record(task, r) for r in records]
 
 
-__all__ = ["Record", "Failure", "MODELS", "FAILURES", "typed_record", "typed_records", 
+__all__ = ["Record", "Failure", "OpenRecord", "MODELS", "FAILURES", "failure_model", "typed_record", "typed_records",
+           
            "HiaRecord", "HeterolysisRecord", "ThermoRecord", "IonizeRecord", "SitesRecord", "LadderRecord",
            "RateRecord", "ShiftsRecord", "HiaFailure", "HeterolysisFailure", "ThermoFailure", "IonizeFailure",
            "SitesFailure", "LadderFailure", "RateFailure", "ShiftsFailure"]

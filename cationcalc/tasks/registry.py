@@ -131,6 +131,9 @@ class TaskSpec:
     one_pass_per: str | None = None  #: an option whose list of values runs one pass each (rate: medium)
     calibrated: bool = False  #: the command line offers --calibrated (HIA calibrated against experiment)
     level_options: bool = True  #: the command takes the level options (solvent, engine, temperature, …)
+    #: the typed record of the task (a model of cationcalc.tasks.record_types; its failure model is derived);
+    #: None: the shared keys are typed and the task's own keys pass as they are
+    record: type[BaseModel] | None = None
 
     def defaults(self) -> dict:
         """Every option with a default, by name."""

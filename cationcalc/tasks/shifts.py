@@ -40,7 +40,7 @@ from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.execution.executors import Interrupted, Progress, compute_many
 from cationcalc.execution.store import ResultStore
 from cationcalc.tasks.records import BatchInterrupted, record_base, species_profile
-from cationcalc.tasks.record_types import typed_records
+from cationcalc.tasks.record_types import ShiftsRecord, typed_records
 from cationcalc.tasks.registry import TaskOptions, TaskSpec, option, register
 from cationcalc.tasks.views import CATION, SUBSTRATE, Column
 from cationcalc.tasks.shift_search import (DEFAULT_BEAM, DEFAULT_CEILING_KCAL_MOL, DEFAULT_DEPTH, DEFAULT_MAX_SPECIES,
@@ -373,7 +373,8 @@ class ShiftsOptions(TaskOptions):
 
 
 SHIFTS = register(TaskSpec(
-    name="shifts", help="1,2-shifts and ring expansions of carbocations, with driving forces", options=ShiftsOptions,
+    name="shifts", record=ShiftsRecord,
+    help="1,2-shifts and ring expansions of carbocations, with driving forces", options=ShiftsOptions,
     headline=None,
     view=(SUBSTRATE, CATION, Column("sink_smiles", "most stable cation reached", "smiles"),
           Column("sink_dG_kcal_mol", "ΔG to it (kcal/mol)", "value"),

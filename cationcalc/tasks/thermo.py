@@ -14,6 +14,7 @@ from cationcalc.chem.species import InputError, species
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.execution.refine import refine_task_records
 from cationcalc.tasks.records import Prepared, record_base, species_profile
+from cationcalc.tasks.record_types import ThermoRecord
 from cationcalc.tasks.registry import RefinableOptions, TaskSpec, register
 from cationcalc.tasks.views import Column
 from cationcalc.trust.uncertainty import annotate
@@ -56,7 +57,8 @@ def _prepare(text: str, name: str, settings: Settings, options: dict, force: boo
 
 
 THERMO = register(TaskSpec(
-    name="thermo", help="energy, ZPE, H, S, G, symmetry and frequencies of any species", options=RefinableOptions,
+    name="thermo", record=ThermoRecord,
+    help="energy, ZPE, H, S, G, symmetry and frequencies of any species", options=RefinableOptions,
     headline=None,
     view=(Column("smiles", "species", "smiles"), Column("G_kcal_mol", "G − E (kcal/mol)", "value", digits=2),
           Column("S_J_mol_K", "S (J/mol/K)", "value"), Column("point_group", "point group")),

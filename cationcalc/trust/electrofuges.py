@@ -127,6 +127,11 @@ def descriptor_level(solvent: str | None = DESCRIPTOR_SOLVENT, refine: str | Non
     return f"{refine}//{base}" if refine else base
 
 
+def calibrated_levels() -> list[str]:
+    """Levels with descriptor rows in the bundled table (each one an E_f and E calibration)."""
+    return list(dict.fromkeys(r["level"] for r in descriptor_rows()))
+
+
 def _descriptors(level: str, quantity: str) -> dict[str, float]:
     return {canonical_cation(r["cation_smiles"]): float(r[quantity]) for r in descriptor_rows()
             if r["level"] == level and r[quantity] not in ("", None)}
@@ -190,6 +195,7 @@ class ElectrofugeEstimate:
     E: float
     E_source: str
     descriptor_in_range: bool  #: inside the descriptor range of the E_f calibration
+    level: str = "GFN2-xTB (gas)"  #: level of the descriptor and of both calibrations
 
     @property
     def E_f_uncertainty(self) -> float:
@@ -204,6 +210,9 @@ def estimate_electrofuge(cation_smiles: str, descriptor_kcal_mol: float, level: 
     """E_f and E of a cation from its descriptor at ``level`` (default GFN2-xTB gas; published values used where
     the cation is tabulated)."""
     key = canonical_cation(cation_smiles)
+    if level is not None and level not in calibrated_levels():
+        raise ValueError(f"no E_f calibration at {level}: calibrated levels are {', '.join(calibrated_levels())} "
+                         f"(refine the rate task at {DFT_DESCRIPTOR_LEVEL}, or not at all)")
     ef_cal, e_cal = electrofugality_calibration(level), electrophilicity_calibration(level)
     ef_computed = ef_cal.predict(descriptor_kcal_mol, key)
     e_computed = e_cal.predict(descriptor_kcal_mol, key)
@@ -223,9 +232,9 @@ def estimate_electrofuge(cation_smiles: str, descriptor_kcal_mol: float, level: 
     low, high = ef_cal.descriptor_range()
     return ElectrofugeEstimate(key, descriptor_kcal_mol, ef_computed, ef_cal.loo_rmse, ef, ef_source,
                                published is not None, e_computed, e_cal.loo_rmse, e, e_source,
-                               low - 1.0 <= descriptor_kcal_mol <= high + 1.0)
+                               low - 1.0 <= descriptor_kcal_mol <= high + 1.0, ef_cal.level)
 
 
 __all__ = ["DESCRIPTOR_SOLVENT", "DESCRIPTOR_QUANTITY", "DFT_DESCRIPTOR_LEVEL", "ScaleCalibration", "ScaleMember", "ElectrofugeEstimate",
-           "electrofugality_calibration", "electrophilicity_calibration", "estimate_electrofuge",
+           "electrofugality_calibration", "electrophilicity_calibration", "estimate_electrofuge", "calibrated_levels",
            "published_electrofugalities", "published_electrophilicities", "descriptor_level", "canonical_cation"]

@@ -72,6 +72,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 from cationcalc.chem import units
+from cationcalc.compute.models import Settings
 from cationcalc.trust.calibration import Calibration, calibration_for, class_group, gas_calibration
 
 #: quantity → kind of error bar
@@ -192,7 +193,7 @@ class _Bars:
     best: dict              # input → (class group, canonical cation) of its rank-1 record
 
 
-def annotate(task: str, records: list[Mapping], settings, calibrated: bool = False) -> list[dict]:
+def annotate(task: str, records: list[Mapping], settings: Settings, calibrated: bool = False) -> list[dict]:
     """New records with ``<quantity>_uncertainty_kcal_mol`` on every value; HIA calibrated on request.
 
     The records given are not changed: each annotated record is a new flat
