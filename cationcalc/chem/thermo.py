@@ -393,16 +393,53 @@ def thermochemistry(
     plain RRHO. Translation: Sackur–Tetrode at ``pressure_pa``; rotation:
     rigid rotor with ``symmetry_number``; electronic: R ln(multiplicity).
     """
+    _check_options(imaginary, symmetry_number, spin_multiplicity)
+    positions = _as_positions(positions_angstrom)
+    n_atoms = len(positions)
+    masses = _as_masses(masses_amu, n_atoms)
+    linear = is_linear(positions, masses)
+    nu, n_imaginary = _real_wavenumbers(frequencies_cm1, n_atoms, linear, imaginary)
+
+    rt_J_mol = GAS_CONSTANT_J_MOL_K * temperature_k
+    s_trans = translational_entropy_J_mol_K(masses.sum(), temperature_k, pressure_pa)
+    e_trans = 1.5 * rt_J_mol
+    s_rot = rotational_entropy_J_mol_K(positions, masses, symmetry_number, temperature_k, linear)
+    e_rot = 0.0 if n_atoms == 1 else (rt_J_mol if linear else 1.5 * rt_J_mol)
+    s_elec = GAS_CONSTANT_J_MOL_K * np.log(spin_multiplicity)
+    s_vib = vibrational_entropy_J_mol_K(nu, temperature_k, qrrho)
+    zpe, e_vib = _vibrational_energies_J_mol(nu, temperature_k, qrrho)
+
+    thermal_J_mol = e_trans + e_rot + e_vib
+    enthalpy_J_mol = thermal_J_mol + rt_J_mol
+    entropy = s_trans + s_rot + s_vib + s_elec
+    gibbs_J_mol = enthalpy_J_mol - temperature_k * entropy
+    return Thermochemistry(
+        temperature_k=float(temperature_k), pressure_pa=float(pressure_pa),
+        symmetry_number=int(symmetry_number), spin_multiplicity=int(spin_multiplicity), is_linear=linear,
+        zpe_kcal_mol=float(zpe * J_TO_KCAL),
+        thermal_energy_kcal_mol=float(thermal_J_mol * J_TO_KCAL),
+        enthalpy_correction_kcal_mol=float(enthalpy_J_mol * J_TO_KCAL),
+        entropy_J_mol_K=float(entropy),
+        s_translational_J_mol_K=float(s_trans), s_rotational_J_mol_K=float(s_rot),
+        s_vibrational_J_mol_K=float(s_vib), s_electronic_J_mol_K=float(s_elec),
+        gibbs_correction_kcal_mol=float(gibbs_J_mol * J_TO_KCAL),
+        used_qrrho=qrrho is not None, n_imaginary_ignored=n_imaginary,
+    )
+
+
+def _check_options(imaginary: str, symmetry_number: int, spin_multiplicity: int) -> None:
+    """Refuse an unknown ``imaginary`` policy and a symmetry number or multiplicity below 1."""
     if imaginary not in ("ignore", "raise"):
         raise ValueError("imaginary must be 'ignore' or 'raise'")
     if symmetry_number < 1:
         raise ValueError("symmetry_number must be a positive integer")
     if spin_multiplicity < 1:
         raise ValueError("spin_multiplicity must be a positive integer")
-    positions = _as_positions(positions_angstrom)
-    n_atoms = len(positions)
-    masses = _as_masses(masses_amu, n_atoms)
-    linear = is_linear(positions, masses)
+
+
+def _real_wavenumbers(frequencies_cm1: ArrayLike, n_atoms: int, linear: bool,
+                      imaginary: str) -> tuple[np.ndarray, int]:
+    """The positive wavenumbers and the number of imaginary ones, after checking the 3N−6/3N−5 count."""
     expected = 0 if n_atoms == 1 else 3 * n_atoms - (5 if linear else 6)
     nu_all = np.asarray(frequencies_cm1, dtype=float).reshape(-1)
     if nu_all.size != expected:
@@ -412,47 +449,20 @@ def thermochemistry(
     n_imaginary = int(np.count_nonzero(nu_all < 0.0))
     if n_imaginary and imaginary == "raise":
         raise ValueError(f"{n_imaginary} imaginary frequencies: {nu_all[nu_all < 0.0]}")
-    nu = nu_all[nu_all > 0.0]
+    return nu_all[nu_all > 0.0], n_imaginary
 
-    rt_J_mol = GAS_CONSTANT_J_MOL_K * temperature_k
 
-    s_trans = translational_entropy_J_mol_K(masses.sum(), temperature_k, pressure_pa)
-    e_trans = 1.5 * rt_J_mol
-    s_rot = rotational_entropy_J_mol_K(positions, masses, symmetry_number, temperature_k, linear)
-    e_rot = 0.0 if n_atoms == 1 else (rt_J_mol if linear else 1.5 * rt_J_mol)
-    s_elec = GAS_CONSTANT_J_MOL_K * np.log(spin_multiplicity)
-
-    s_vib = vibrational_entropy_J_mol_K(nu, temperature_k, qrrho)
+def _vibrational_energies_J_mol(nu: np.ndarray, temperature_k: float,
+                                qrrho: QuasiRRHO | None) -> tuple[float, float]:
+    """(ZPE, ZPE + thermal vibrational energy) in J/mol; quasi-RRHO damps the latter when asked."""
     zpe_modes, thermal_modes = harmonic_energy_J_mol(nu, temperature_k)
     zpe = float(zpe_modes.sum())
     vib_energy_modes = zpe_modes + thermal_modes
     if qrrho is not None and qrrho.damp_enthalpy:
         w = qrrho.weights(nu)
+        rt_J_mol = GAS_CONSTANT_J_MOL_K * temperature_k
         vib_energy_modes = w * vib_energy_modes + (1.0 - w) * 0.5 * rt_J_mol
-    e_vib = float(vib_energy_modes.sum())
-
-    thermal_J_mol = e_trans + e_rot + e_vib
-    enthalpy_J_mol = thermal_J_mol + rt_J_mol
-    entropy = s_trans + s_rot + s_vib + s_elec
-    gibbs_J_mol = enthalpy_J_mol - temperature_k * entropy
-    return Thermochemistry(
-        temperature_k=float(temperature_k),
-        pressure_pa=float(pressure_pa),
-        symmetry_number=int(symmetry_number),
-        spin_multiplicity=int(spin_multiplicity),
-        is_linear=linear,
-        zpe_kcal_mol=float(zpe * J_TO_KCAL),
-        thermal_energy_kcal_mol=float(thermal_J_mol * J_TO_KCAL),
-        enthalpy_correction_kcal_mol=float(enthalpy_J_mol * J_TO_KCAL),
-        entropy_J_mol_K=float(entropy),
-        s_translational_J_mol_K=float(s_trans),
-        s_rotational_J_mol_K=float(s_rot),
-        s_vibrational_J_mol_K=float(s_vib),
-        s_electronic_J_mol_K=float(s_elec),
-        gibbs_correction_kcal_mol=float(gibbs_J_mol * J_TO_KCAL),
-        used_qrrho=qrrho is not None,
-        n_imaginary_ignored=n_imaginary,
-    )
+    return zpe, float(vib_energy_modes.sum())
 
 
 # ----------------------------------------------------------------------------

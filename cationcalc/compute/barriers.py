@@ -165,7 +165,23 @@ def product_endpoint(parent: SpeciesResult, candidate: ShiftStep, settings: Sett
         raise ValueError("the parent result's atoms are not in the order of its SMILES")
     pos = np.array(parent.positions_angstrom, dtype=float)
     centre, beta = candidate.to_atom, candidate.from_atom
-    # the candidate atoms: β-hydrogens, or groups on β equivalent to the migrating one
+    group = _migrating_group(mol, pos, candidate)
+    bond = float(covalent_radii[numbers[centre]] + covalent_radii[numbers[group]])
+    target = _landing_site(pos, centre, beta, group, bond)
+    far = float(np.linalg.norm(target - pos[beta]))
+    kw = dict(charge=1, multiplicity=1, solvent=settings.solvent)
+    atoms, stages = _shifted_start(mol, numbers, pos, candidate, group, target, bond, far)
+    atoms.calc = EngineCalculator(engine, **kw)
+    _relax_through_stages(atoms, group, centre, beta, stages)
+    opt = optimize(numbers, atoms.positions, engine, fmax=settings.fmax_ev_per_angstrom,
+                   max_steps=settings.max_steps, optimizer=settings.optimizer, **kw)
+    return opt.positions, _endpoint_reached(mol, numbers, opt.positions, candidate, group, accept_smiles)
+
+
+def _migrating_group(mol, pos: np.ndarray, candidate: ShiftStep) -> int:
+    """The atom on β that moves: of the β-hydrogens (or the groups equivalent to the migrating one),
+    the one whose bond to β lies closest to the centre's empty p orbital."""
+    centre, beta = candidate.to_atom, candidate.from_atom
     if candidate.kind == "hydride":
         options = [n.GetIdx() for n in mol.GetAtomWithIdx(beta).GetNeighbors() if n.GetAtomicNum() == 1]
     else:
@@ -174,33 +190,43 @@ def product_endpoint(parent: SpeciesResult, candidate: ShiftStep, settings: Sett
                    if n.GetIdx() != centre and ranks[n.GetIdx()] == ranks[candidate.migrating_atom]]
     ligands = [n.GetIdx() for n in mol.GetAtomWithIdx(centre).GetNeighbors()]
     normal = _plane_normal(pos[[centre] + ligands])
-    axis = pos[beta] - pos[centre]
-    axis /= np.linalg.norm(axis)
 
     def alignment(atom):  # |cos| between the β–X bond and the empty p orbital
         v = pos[atom] - pos[beta]
         return abs(np.dot(v, normal)) / np.linalg.norm(v)
 
-    group = max(options, key=alignment)
-    bond = float(covalent_radii[numbers[centre]] + covalent_radii[numbers[group]])
+    return max(options, key=alignment)
+
+
+def _landing_site(pos: np.ndarray, centre: int, beta: int, group: int, bond: float) -> np.ndarray:
+    """Where the group lands on the centre: ``bond`` Å away, tetrahedral to β, on the face it came from."""
+    axis = pos[beta] - pos[centre]
+    axis /= np.linalg.norm(axis)
     side = pos[group] - pos[beta]
     side = side - np.dot(side, axis) * axis
     side /= np.linalg.norm(side)
     cos_t = -1.0 / 3.0  # tetrahedral angle β–C–X, X on the face it came from
-    target = pos[centre] + bond * (cos_t * axis + np.sqrt(1 - cos_t ** 2) * side)
-    far = float(np.linalg.norm(target - pos[beta]))
-    kw = dict(charge=1, multiplicity=1, solvent=settings.solvent)
+    return pos[centre] + bond * (cos_t * axis + np.sqrt(1 - cos_t ** 2) * side)
+
+
+def _shifted_start(mol, numbers: np.ndarray, pos: np.ndarray, candidate: ShiftStep, group: int,
+                   target: np.ndarray, bond: float, far: float) -> tuple[Atoms, list[tuple[float, float]]]:
+    """The starting atoms and the (group–centre, group–β) distance stages that lead to the product."""
+    centre, beta = candidate.to_atom, candidate.from_atom
     atoms = Atoms(numbers=numbers, positions=pos.copy())
     if candidate.kind != "ring":
         # a hydrogen or an acyclic group: put it on the centre's open face in one move
         moving = _moving_atoms(mol, beta, group, candidate.kind)
         atoms.positions[moving] += target - pos[group]
-        stages = [(bond, far)]
-    else:
-        # a ring bond cannot jump: drive the two distances there in stages, relaxing the rest
-        d_c, d_b = (float(np.linalg.norm(pos[group] - pos[x])) for x in (centre, beta))
-        stages = [(d_c + (bond - d_c) * f, d_b + (far - d_b) * f) for f in (0.25, 0.5, 0.75, 1.0)]
-    atoms.calc = EngineCalculator(engine, **kw)
+        return atoms, [(bond, far)]
+    # a ring bond cannot jump: drive the two distances there in stages, relaxing the rest
+    d_c, d_b = (float(np.linalg.norm(pos[group] - pos[x])) for x in (centre, beta))
+    return atoms, [(d_c + (bond - d_c) * f, d_b + (far - d_b) * f) for f in (0.25, 0.5, 0.75, 1.0)]
+
+
+def _relax_through_stages(atoms: Atoms, group: int, centre: int, beta: int,
+                          stages: list[tuple[float, float]]) -> None:
+    """Hold the group at each stage's two distances in turn and relax the rest (in place)."""
     for to_centre, to_beta in stages:
         atoms.set_constraint()
         atoms.set_constraint(FixBondLengths([(group, centre), (group, beta)], bondlengths=[to_centre, to_beta],
@@ -208,14 +234,18 @@ def product_endpoint(parent: SpeciesResult, candidate: ShiftStep, settings: Sett
         atoms.set_positions(atoms.get_positions())  # SHAKE the pair onto this stage's distances
         LBFGS(atoms, logfile=None, maxstep=0.2).run(fmax=0.05, steps=100)
     atoms.set_constraint()
-    opt = optimize(numbers, atoms.positions, engine, fmax=settings.fmax_ev_per_angstrom,
-                   max_steps=settings.max_steps, optimizer=settings.optimizer, **kw)
+
+
+def _endpoint_reached(mol, numbers: np.ndarray, positions: np.ndarray, candidate: ShiftStep, group: int,
+                      accept_smiles: set[str]) -> str:
+    """Canonical SMILES of the optimised endpoint: the product, or an accepted other cation; else ValueError."""
+    centre, beta = candidate.to_atom, candidate.from_atom
     product_bonds = set(bonds_from_mol(mol))
     product_bonds.discard(tuple(sorted((beta, group))))
     product_bonds.add(tuple(sorted((centre, group))))
-    change = compare_bonding(frozenset(product_bonds), numbers, opt.positions, 1)
+    change = compare_bonding(frozenset(product_bonds), numbers, positions, 1)
     if not change.changed:
-        return opt.positions, candidate.product_smiles
+        return candidate.product_smiles
     reached = None
     if change.relaxed_smiles:
         try:
@@ -223,7 +253,7 @@ def product_endpoint(parent: SpeciesResult, candidate: ShiftStep, settings: Sett
         except InputError:
             reached = change.relaxed_smiles
     if reached is not None and reached in accept_smiles:
-        return opt.positions, reached
+        return reached
     raise ValueError(f"the product endpoint of the {candidate.kind} shift did not stay "
                      f"{candidate.product_smiles} on optimisation ({change.describe(list(numbers))})")
 

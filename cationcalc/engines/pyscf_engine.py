@@ -202,33 +202,14 @@ def dft_single_point(numbers: Sequence[int], positions_angstrom: ArrayLike, *, c
     ``threads`` overrides PySCF's OpenMP thread count for this call only.
     """
     require_pyscf()
-    from pyscf import dft, lib
+    from pyscf import lib
 
     start = time.perf_counter()
     mol = build_molecule(numbers, positions_angstrom, charge=charge, multiplicity=multiplicity, basis=basis,
                          what=what, max_memory_mb=max_memory_mb)
     restricted = mol.spin == 0
-    mf = (dft.RKS(mol) if restricted else dft.UKS(mol))
-    mf.xc = xc
-    mf.grids.level = int(grid_level)
-    mf.conv_tol = float(conv_tol)
-    mf.max_cycle = int(max_cycle)
-    mf = mf.density_fit()
-    label = None
-    if solvent_model is not None:
-        if solvent is None:
-            raise ValueError(f"solvent model {solvent_model} needs a solvent")
-        if solvent_model == "C-PCM":
-            mf = mf.PCM()
-            mf.with_solvent.method = "C-PCM"
-            mf.with_solvent.eps = dielectric_constant(solvent)
-        elif solvent_model == "SMD":
-            mf = mf.SMD()
-            mf.with_solvent.solvent = smd_name(solvent)
-        else:
-            raise ValueError(f"solvent model {solvent_model!r}: PySCF solvent models here are "
-                             + ", ".join(PYSCF_SOLVENT_MODELS))
-        label = f"{solvent_model}({solvent})"
+    mf = _kohn_sham(mol, xc=xc, grid_level=grid_level, conv_tol=conv_tol, max_cycle=max_cycle)
+    mf, label = _with_solvent(mf, solvent, solvent_model)
     cycles = {"n": 0}
 
     def count(envs):
@@ -237,36 +218,9 @@ def dft_single_point(numbers: Sequence[int], positions_angstrom: ArrayLike, *, c
     mf.callback = count
     context = lib.with_omp_threads(int(threads)) if threads else _nullcontext()
     with context:
-        try:
-            energy = mf.kernel()
-            route = "DIIS"
-            final = mf
-            if not mf.converged:
-                newton = mf.newton()
-                newton.max_cycle = int(newton_max_cycle)
-                newton.conv_tol = float(conv_tol)
-                newton.callback = count
-                energy = newton.kernel(mf.mo_coeff, mf.mo_occ)
-                route = "DIIS, then second-order (Newton)"
-                final = newton
-                if not newton.converged:
-                    raise DFTConvergenceError(
-                        f"{what}: the DFT SCF ({xc}/{basis}) did not converge in {max_cycle} DIIS cycles nor in "
-                        f"{newton_max_cycle} second-order (Newton) cycles; check the structure, charge and "
-                        "multiplicity")
-        except (RuntimeError, np.linalg.LinAlgError) as exc:
-            if isinstance(exc, EngineError):
-                raise
-            if "dispersion" in str(exc).lower():
-                raise DFTUnavailable(f"dispersion correction unavailable ({exc}): {INSTALL_HINT}") from None
-            raise EngineError(f"{what}: PySCF failed: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}"
-                              ) from None
-        e_disp = 0.0
-        if hasattr(final, "get_dispersion"):
-            try:
-                e_disp = float(final.get_dispersion())
-            except Exception:  # pragma: no cover - a functional without dispersion parameters
-                e_disp = 0.0
+        energy, final, route = _converged_scf(mf, count, xc=xc, basis=basis, max_cycle=max_cycle,
+                                              newton_max_cycle=newton_max_cycle, conv_tol=conv_tol, what=what)
+        e_disp = _dispersion_energy(final)
     energy = float(energy)
     if not np.isfinite(energy):
         raise EngineError(f"{what}: PySCF returned a non-finite energy")
@@ -275,6 +229,78 @@ def dft_single_point(numbers: Sequence[int], positions_angstrom: ArrayLike, *, c
                      n_electrons=int(mol.nelectron), spin=int(mol.spin), restricted=restricted, scf_route=route,
                      scf_cycles=cycles["n"], seconds=time.perf_counter() - start, s_squared=s2,
                      solvent_model=label)
+
+
+def _kohn_sham(mol, *, xc: str, grid_level: int, conv_tol: float, max_cycle: int):
+    """Restricted (closed shell) or unrestricted Kohn–Sham object with density fitting."""
+    from pyscf import dft
+
+    mf = (dft.RKS(mol) if mol.spin == 0 else dft.UKS(mol))
+    mf.xc = xc
+    mf.grids.level = int(grid_level)
+    mf.conv_tol = float(conv_tol)
+    mf.max_cycle = int(max_cycle)
+    return mf.density_fit()
+
+
+def _with_solvent(mf, solvent: str | None, solvent_model: str | None):
+    """``mf`` wrapped in the implicit solvent model, and its label (None in the gas phase)."""
+    if solvent_model is None:
+        return mf, None
+    if solvent is None:
+        raise ValueError(f"solvent model {solvent_model} needs a solvent")
+    if solvent_model == "C-PCM":
+        mf = mf.PCM()
+        mf.with_solvent.method = "C-PCM"
+        mf.with_solvent.eps = dielectric_constant(solvent)
+    elif solvent_model == "SMD":
+        mf = mf.SMD()
+        mf.with_solvent.solvent = smd_name(solvent)
+    else:
+        raise ValueError(f"solvent model {solvent_model!r}: PySCF solvent models here are "
+                         + ", ".join(PYSCF_SOLVENT_MODELS))
+    return mf, f"{solvent_model}({solvent})"
+
+
+def _converged_scf(mf, count, *, xc: str, basis: str, max_cycle: int, newton_max_cycle: int, conv_tol: float,
+                   what: str):
+    """Run DIIS, then second-order (Newton) if DIIS did not converge: (energy, final SCF object, route).
+
+    PySCF failures become :class:`EngineError` (or :class:`DFTUnavailable` for a missing dispersion
+    correction); no convergence either way raises :class:`DFTConvergenceError`.
+    """
+    try:
+        energy = mf.kernel()
+        if mf.converged:
+            return energy, mf, "DIIS"
+        newton = mf.newton()
+        newton.max_cycle = int(newton_max_cycle)
+        newton.conv_tol = float(conv_tol)
+        newton.callback = count
+        energy = newton.kernel(mf.mo_coeff, mf.mo_occ)
+        if not newton.converged:
+            raise DFTConvergenceError(
+                f"{what}: the DFT SCF ({xc}/{basis}) did not converge in {max_cycle} DIIS cycles nor in "
+                f"{newton_max_cycle} second-order (Newton) cycles; check the structure, charge and "
+                "multiplicity")
+        return energy, newton, "DIIS, then second-order (Newton)"
+    except (RuntimeError, np.linalg.LinAlgError) as exc:
+        if isinstance(exc, EngineError):
+            raise
+        if "dispersion" in str(exc).lower():
+            raise DFTUnavailable(f"dispersion correction unavailable ({exc}): {INSTALL_HINT}") from None
+        raise EngineError(f"{what}: PySCF failed: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}"
+                          ) from None
+
+
+def _dispersion_energy(final) -> float:
+    """The dispersion correction (Hartree) of the converged SCF; 0 without one."""
+    if not hasattr(final, "get_dispersion"):
+        return 0.0
+    try:
+        return float(final.get_dispersion())
+    except Exception:  # pragma: no cover - a functional without dispersion parameters
+        return 0.0
 
 
 class _nullcontext:

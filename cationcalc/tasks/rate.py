@@ -219,22 +219,10 @@ def kinetic_fields(est: ElectrofugeEstimate, nf: Nucleofugality, m: Medium, subs
     uncertainty = combined(nf.s_f * est.E_f_uncertainty, nf.uncertainty_lg, EQUATION_ERROR_LG, t_band, class_error)
     uncertainty_computed = combined(nf.s_f * est.E_f_computed_uncertainty, nf.uncertainty_lg, EQUATION_ERROR_LG,
                                     t_band, class_error)
-    notes: list[str] = []
-    covered = nf.covers(est.E_f)
-    if covered is False:
-        notes.append(f"E_f {est.E_f:+.2f} outside the N_f fit range {nf.range_text()}: extrapolated")
-    if not est.descriptor_in_range:
-        low, high = electrofugality_calibration(est.level).descriptor_range()
-        notes.append(f"HIA {est.descriptor_kcal_mol:.1f} kcal/mol outside the E_f calibration's "
-                     f"{low:.1f}–{high:.1f}: extrapolated")
-    if nf.estimated:
-        notes.append(f"N_f of {nf.leaving_group} in {m.code} is {nf.route}")
-    if m.notes:
-        notes.append(f"medium {m.code}: {m.notes}")
+    notes = _kinetic_notes(est, nf, m)
     life = lifetime_fields(est, m)
     applies = not verdict_of_class.startswith("outside")
     where = f"in {m.code} at {temperature_k - units.ZERO_CELSIUS_K:.0f} °C"
-    k = 10.0 ** lg_t
     record = {
         "medium": m.code, "medium_name": m.name, "rate_temperature_k": round(temperature_k, 2),
         "rate_class": klass, "applicability": verdict_of_class,
@@ -251,29 +239,57 @@ def kinetic_fields(est: ElectrofugeEstimate, nf: Nucleofugality, m: Medium, subs
         "kinetic_notes": notes,
     }
     if applies:
-        t_half = half_life_s(k)
-        judged = time_verdict(t_half, where)
-        record.update({"k_ion_per_s": float(f"{k:.3g}"), "lg_k_ion": round(lg_t, 2),
-                       "lg_k_ion_uncertainty": round(uncertainty, 2), "half_life_s": float(f"{t_half:.3g}"),
-                       "lg_k_ion_text": f"{lg_t:+.2f} ± {uncertainty:.2f}",
-                       "half_life_text": human_time(t_half),
-                       "half_life_range_text": f"{human_time(t_half / 10 ** uncertainty)} – "
-                                               f"{human_time(t_half * 10 ** uncertainty)}",
-                       "rate_verdict": judged.verdict, "rate_verdict_reason": judged.reason,
-                       "k_ion_sn1_only_per_s": None})
+        record.update(_sn1_rate_fields(lg_t, uncertainty, where))
         if life.get("free_cation") is False:
             notes.append(f"no free cation: lifetime {life['lifetime_text']} in {m.code} (captured in the ion pair, "
                          "or concerted)")
     else:
-        record.update({"k_ion_per_s": None, "lg_k_ion": None, "lg_k_ion_uncertainty": None, "half_life_s": None,
-                       "half_life_text": "—", "half_life_range_text": "—",
-                       "lg_k_ion_text": f"(SN1 only ≥ {lg_t_computed:+.1f})",
-                       "rate_verdict": "outside the SN1 model",
-                       "rate_verdict_reason": f"{verdict_of_class}; the SN1-only rate constant "
-                                              f"{10 ** lg_t_computed:.2g} s⁻¹ {where} is a lower bound for the "
-                                              "observed solvolysis",
-                       "k_ion_sn1_only_per_s": float(f"{10 ** lg_t_computed:.3g}")})
+        record.update(_outside_model_fields(verdict_of_class, lg_t_computed, where))
     return record
+
+
+def _kinetic_notes(est: ElectrofugeEstimate, nf: Nucleofugality, m: Medium) -> list[str]:
+    """Extrapolations and estimated inputs behind the rate constant, in words."""
+    notes: list[str] = []
+    covered = nf.covers(est.E_f)
+    if covered is False:
+        notes.append(f"E_f {est.E_f:+.2f} outside the N_f fit range {nf.range_text()}: extrapolated")
+    if not est.descriptor_in_range:
+        low, high = electrofugality_calibration(est.level).descriptor_range()
+        notes.append(f"HIA {est.descriptor_kcal_mol:.1f} kcal/mol outside the E_f calibration's "
+                     f"{low:.1f}–{high:.1f}: extrapolated")
+    if nf.estimated:
+        notes.append(f"N_f of {nf.leaving_group} in {m.code} is {nf.route}")
+    if m.notes:
+        notes.append(f"medium {m.code}: {m.notes}")
+    return notes
+
+
+def _sn1_rate_fields(lg_t: float, uncertainty: float, where: str) -> dict:
+    """Rate constant, half-life and verdict when the SN1 model applies to the cation's class."""
+    k = 10.0 ** lg_t
+    t_half = half_life_s(k)
+    judged = time_verdict(t_half, where)
+    return {"k_ion_per_s": float(f"{k:.3g}"), "lg_k_ion": round(lg_t, 2),
+            "lg_k_ion_uncertainty": round(uncertainty, 2), "half_life_s": float(f"{t_half:.3g}"),
+            "lg_k_ion_text": f"{lg_t:+.2f} ± {uncertainty:.2f}",
+            "half_life_text": human_time(t_half),
+            "half_life_range_text": f"{human_time(t_half / 10 ** uncertainty)} – "
+                                    f"{human_time(t_half * 10 ** uncertainty)}",
+            "rate_verdict": judged.verdict, "rate_verdict_reason": judged.reason,
+            "k_ion_sn1_only_per_s": None}
+
+
+def _outside_model_fields(verdict_of_class: str, lg_t_computed: float, where: str) -> dict:
+    """Empty rate fields and the SN1-only lower bound when the cation's class is outside the model."""
+    return {"k_ion_per_s": None, "lg_k_ion": None, "lg_k_ion_uncertainty": None, "half_life_s": None,
+            "half_life_text": "—", "half_life_range_text": "—",
+            "lg_k_ion_text": f"(SN1 only ≥ {lg_t_computed:+.1f})",
+            "rate_verdict": "outside the SN1 model",
+            "rate_verdict_reason": f"{verdict_of_class}; the SN1-only rate constant "
+                                   f"{10 ** lg_t_computed:.2g} s⁻¹ {where} is a lower bound for the "
+                                   "observed solvolysis",
+            "k_ion_sn1_only_per_s": float(f"{10 ** lg_t_computed:.3g}")}
 
 
 # ---------------------------------------------------------------- the task
