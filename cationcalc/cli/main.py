@@ -161,21 +161,8 @@ def _own_level_parser(p, task) -> None:
     p.add_argument("--workers", type=positive_int_arg, default=None, help="processes (default: one per core)")
     p.add_argument("--force", action="store_true", help="compute species above the size limit")
     _output_options(p, "every column and every note in the terminal table")
-    if task.refine is not None:
-        _descriptor_refinement(p)
     p.set_defaults(solvent="none", engine="tblite", temperature=Settings.model_fields["temperature_k"].default,
-                   pressure=101325.0, rrho=False, mix_enantiomers=False, calibrated=False)
-
-
-def _descriptor_refinement(p) -> None:
-    """--refine of a command at its own level (rate): the DFT//xTB descriptor of the bundled E_f calibration."""
-    from cationcalc.trust.electrofuges import DFT_DESCRIPTOR_LEVEL
-
-    p.add_argument("--refine", action="store_const", const=DFT_DESCRIPTOR_LEVEL, default=None,
-                   help=f"E_f from the DFT//xTB descriptor: {DFT_DESCRIPTOR_LEVEL} single points (PySCF) on the "
-                        "GFN2-xTB structures, the descriptor with the lowest leave-one-out error of the E_f "
-                        "calibration (pip install 'cationcalc[dft]')")
-    p.add_argument("--refine-level", dest="refine", default=None, metavar="LEVEL", help=argparse.SUPPRESS)
+                   pressure=101325.0, rrho=False, mix_enantiomers=False, calibrated=False, refine=None)
 
 
 def build_parser() -> argparse.ArgumentParser:

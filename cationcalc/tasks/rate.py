@@ -35,12 +35,11 @@ from __future__ import annotations
 import math
 from functools import lru_cache
 
-from pydantic import field_validator, model_validator
+from pydantic import field_validator
 from rdkit import Chem
 
 from cationcalc.chem import units
-from cationcalc.trust.electrofuges import (DESCRIPTOR_SOLVENT, DFT_DESCRIPTOR_LEVEL, ElectrofugeEstimate,
-                                           calibrated_levels, descriptor_level, electrofugality_calibration,
+from cationcalc.trust.electrofuges import (DESCRIPTOR_SOLVENT, ElectrofugeEstimate, electrofugality_calibration,
                                            estimate_electrofuge)
 from cationcalc.chem.ionization import heterolysis_sites, structurally_flagged
 from cationcalc.chem.kinetics import (EQUATION_ERROR_LG, ELECTROFUGE_TEMPERATURE_K, FREE_CATION_CAPTURE_LIMIT_PER_S,
@@ -55,9 +54,8 @@ from cationcalc.execution.store import ResultStore
 from cationcalc.trust.nucleofuges import Nucleofugality, nucleofugality
 from cationcalc.compute.properties import hydride_ion_affinity
 from cationcalc.tasks.records import Prepared, record_base, collect_warnings, species_profile
-from cationcalc.execution.refine import refine_task_records
 from cationcalc.tasks.record_types import RateRecord
-from cationcalc.tasks.registry import RefinableOptions, StepContext, TaskSpec, option, register
+from cationcalc.tasks.registry import StepContext, TaskOptions, TaskSpec, option, register
 from cationcalc.tasks.views import HALF_LIFE, LG_K, SITE, SUBSTRATE, VERDICT, Column, nucleofugality_label
 from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE, hia_reference, load_table
 from cationcalc.chem.species import InputError, Species, carbocation, hydride_adduct
@@ -471,7 +469,7 @@ def _known_media(value) -> list[str]:
     return [medium(str(v)).code for v in values]  # InputError (a ValueError) lists the known media
 
 
-class RateOptions(RefinableOptions):
+class RateOptions(TaskOptions):
     medium: list[str] = option(..., "solvolysis medium as the trade writes it: 80E20W, '80% ethanol', "
                                     "'ethanol/water 80:20', '97% TFE (w/w)', acetone, water", min_length=1)
     temperature_k: float = option(ELECTROFUGE_TEMPERATURE_K, "temperature in K for k and the half-life "
@@ -480,16 +478,6 @@ class RateOptions(RefinableOptions):
 
     _medium = field_validator("medium", mode="before")(classmethod(lambda cls, v: _known_media(v)))
     _temperature = field_validator("temperature_k")(classmethod(lambda cls, v: check_temperature(v)))
-
-    @model_validator(mode="after")
-    def _calibrated_descriptor_level(self):
-        """A refined descriptor needs an E_f calibration at that level (the DFT//xTB level of the bundled table)."""
-        if self.refine is not None:
-            level = descriptor_level(DESCRIPTOR_SOLVENT, self.refine)
-            if level not in calibrated_levels():
-                raise ValueError(f"no E_f calibration at {self.refine}: refine the rate task at "
-                                 f"{DFT_DESCRIPTOR_LEVEL} (the DFT//xTB descriptor of the bundled E_f calibration)")
-        return self
 
 
 def _prepare(text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
@@ -514,8 +502,7 @@ RATE = register(TaskSpec(
           ("half_life_range_text", "range (± u)"), ("E_f", "E_f"), ("N_f", "N_f"), ("s_f", "s_f"),
           ("lifetime_text", "cation lifetime"), ("applicability_status", "model"), ("verdict", "verdict")),
     title="ionization rate R–X → R⁺ + X⁻", report_title="how fast does it ionize? (rate, half-life)",
-    prepare=_prepare, collate=_collate, refine=refine_task_records, fixed_level=descriptor_settings,
-    one_pass_per="medium", level_options=False))
+    prepare=_prepare, collate=_collate, fixed_level=descriptor_settings, one_pass_per="medium", level_options=False))
 
 
 __all__ = ["RATE", "RateOptions", "medium_rates", "prepare_rate", "collate_rates", "add_rates", "rate_footer", "rate_options", "kinetic_fields", "lifetime_fields", "applicability", "rate_class",
