@@ -189,8 +189,7 @@ def _run(task: str, smiles: Inputs, common: dict, **options: Any) -> Records:
         workers = default_workers()
     records = _compute(task, items, settings, workers, bool(common["force"]), common["store"], options)
     if not common["profile"]:  # new records without the time profile, as the command line prints them
-        records = [r.with_values(drop=("profile",)) if hasattr(r, "with_values")
-                   else {k: v for k, v in r.items() if k != "profile"} for r in records]
+        records = [r.with_values(drop=("profile",)) for r in records]
     return Records(records, task=task)
 
 

@@ -314,7 +314,7 @@ class Kinetics(RateValues):
     medium_name: str | None = _d("the medium in words")
     rate_class: str | None = _d("class the applicability rules speak of (diarylmethyl, tertiary, …)")
     descriptor_level: str | None = _d("level of the HIA descriptor and of the E_f and E calibrations used "
-                                      "(GFN2-xTB (gas), or DFT//xTB with --refine)")
+                                      "(GFN2-xTB (gas), or a DFT//xTB level of the descriptor table)")
     applicability: str | None = _d("is the class inside the rate model's calibration, and why")
     applicability_status: str | None = _d("calibrated, checked, uncalibrated class or outside the SN1 model")
     E_f: float | None = _d("electrofugality of the cation used (published where tabulated)")

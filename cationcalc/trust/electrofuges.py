@@ -12,11 +12,10 @@ which also prints the comparison of candidate descriptors):
 
 - GFN2-xTB alone, the level the rate task uses; its leave-one-out error goes
   into every record's uncertainty;
-- DFT//xTB, :data:`DFT_DESCRIPTOR_LEVEL` single points on the GFN2-xTB
-  structures with GFN2-xTB thermal corrections, computed by the benchmark
-  with ``--refine`` (0.43 against 0.73 at GFN2-xTB on the 16 ions computed
-  so far); a calibration exists for a level only once its rows are in the
-  table (:func:`calibrated_levels`).
+- DFT//xTB, B3LYP-D3BJ/def2-SVP single points on the GFN2-xTB structures
+  with GFN2-xTB thermal corrections, computed by the benchmark with
+  ``--refine`` (0.43 against 0.73 at GFN2-xTB on the 16 ions computed so
+  far); a level has a calibration only once its rows are in the table.
 
 The gas phase was chosen over ALPB water and dichloromethane (and over ΔG of
 R–Cl ionization) because it has the lowest leave-one-out error at GFN2-xTB
@@ -51,8 +50,6 @@ from cationcalc.chem.species import carbocation
 DESCRIPTOR_SOLVENT = "none"
 #: the descriptor column: HIA (ΔH, 298 K) by hydride exchange with tert-butyl
 DESCRIPTOR_QUANTITY = "hia_kcal_mol"
-#: the DFT level of the DFT//xTB descriptor (single points on GFN2-xTB structures; chosen by leave-one-out error)
-DFT_DESCRIPTOR_LEVEL = "B3LYP-D3BJ/def2-SVP"
 
 
 def canonical_cation(smiles: str) -> str:
@@ -126,11 +123,6 @@ def descriptor_level(solvent: str | None = DESCRIPTOR_SOLVENT, refine: str | Non
     """
     base = "GFN2-xTB (gas)" if solvent in (None, "", "none") else f"GFN2-xTB/ALPB({solvent})"
     return f"{refine}//{base}" if refine else base
-
-
-def calibrated_levels() -> list[str]:
-    """Levels with descriptor rows in the bundled table (each one an E_f and E calibration)."""
-    return list(dict.fromkeys(r["level"] for r in descriptor_rows()))
 
 
 def _descriptors(level: str, quantity: str) -> dict[str, float]:
@@ -211,9 +203,6 @@ def estimate_electrofuge(cation_smiles: str, descriptor_kcal_mol: float, level: 
     """E_f and E of a cation from its descriptor at ``level`` (default GFN2-xTB gas; published values used where
     the cation is tabulated)."""
     key = canonical_cation(cation_smiles)
-    if level is not None and level not in calibrated_levels():
-        raise ValueError(f"no E_f calibration at {level}: calibrated levels are {', '.join(calibrated_levels())} "
-                         f"(refine the rate task at {DFT_DESCRIPTOR_LEVEL}, or not at all)")
     ef_cal, e_cal = electrofugality_calibration(level), electrophilicity_calibration(level)
     ef_computed = ef_cal.predict(descriptor_kcal_mol, key)
     e_computed = e_cal.predict(descriptor_kcal_mol, key)
@@ -236,6 +225,6 @@ def estimate_electrofuge(cation_smiles: str, descriptor_kcal_mol: float, level: 
                                low - 1.0 <= descriptor_kcal_mol <= high + 1.0, ef_cal.level)
 
 
-__all__ = ["DESCRIPTOR_SOLVENT", "DESCRIPTOR_QUANTITY", "DFT_DESCRIPTOR_LEVEL", "ScaleCalibration", "ScaleMember", "ElectrofugeEstimate",
-           "electrofugality_calibration", "electrophilicity_calibration", "estimate_electrofuge", "calibrated_levels",
+__all__ = ["DESCRIPTOR_SOLVENT", "DESCRIPTOR_QUANTITY", "ScaleCalibration", "ScaleMember", "ElectrofugeEstimate",
+           "electrofugality_calibration", "electrophilicity_calibration", "estimate_electrofuge",
            "published_electrofugalities", "published_electrophilicities", "descriptor_level", "canonical_cation"]
