@@ -94,6 +94,16 @@ def positive_int_arg(text: str) -> int:
     return value
 
 
+def window_arg(text: str) -> float | None:
+    """A window in kcal/mol (0 or more), or none/all for no window."""
+    if text.strip().lower() in ("none", "all", "off"):
+        return None
+    value = _number(text, float, "a number of kcal/mol (or none)")
+    if not value >= 0:
+        raise argparse.ArgumentTypeError(f"{text!r}: give 0 or more kcal/mol, or none for every one")
+    return value
+
+
 def temperature_arg(text: str) -> float:
     """A temperature in K inside :data:`cationcalc.compute.models.TEMPERATURE_RANGE_K`."""
     try:

@@ -22,6 +22,7 @@ import argparse
 import json
 import re
 import sys
+import typing
 
 from cationcalc.about import SAFETY_NOTE, __version__
 from cationcalc.cli.tables import COLUMNS, _print_table, _print_view, _write_csv  # noqa: F401  (COLUMNS: tests)
@@ -78,9 +79,17 @@ def _settings(args):
     conformer_options = {}
     if args.conformers is not None:
         conformer_options["max_conformers"] = args.conformers
-    return Settings(engine=args.engine, solvent=args.solvent, temperature_k=args.temperature,
-                    pressure_pa=args.pressure, conformers=ConformerSettings(**conformer_options),
-                    qrrho=not args.rrho, enantiomer_mixing=args.mix_enantiomers)
+    settings = Settings(engine=args.engine, solvent=args.solvent, temperature_k=args.temperature,
+                        pressure_pa=args.pressure, conformers=ConformerSettings(**conformer_options),
+                        qrrho=not args.rrho, enantiomer_mixing=args.mix_enantiomers)
+    return settings.full_protocol() if getattr(args, "thorough", False) else settings
+
+
+#: the full protocol, for the final answer on a few candidates
+THOROUGH_HELP = ("the full protocol: a Hessian on every conformer of the window, LBFGS, every site and every shift "
+                 "product computed in full (the default funnels and transfers; see benchmarks/druglike.py)")
+#: options that the full protocol switches off (None: everything computed in full)
+THOROUGH_OPTIONS = {"site_window_kcal_mol": None, "shift_window_kcal_mol": None}
 
 
 def _common(p, calibrated: bool = False) -> None:
@@ -106,6 +115,7 @@ def _common(p, calibrated: bool = False) -> None:
     p.add_argument("--workers", type=positive_int_arg, default=None,
                    help="processes, 1 or more (default: one per core)")
     p.add_argument("--force", action="store_true", help="compute species above the size limit")
+    p.add_argument("--thorough", action="store_true", help=THOROUGH_HELP)
     _output_options(p, "terminal table with every column and every note (default: the short reading view)")
     if calibrated:
         p.add_argument("--calibrated", action="store_true", help="report HIA calibrated against gas-phase "
@@ -143,6 +153,10 @@ def _task_options(p, task) -> None:
             continue
         flag = meta["flag"] or "--" + name.replace("_", "-")
         kind = field.annotation if field.annotation in (int, float) else None
+        if typing.get_args(field.annotation) == (float, type(None)):
+            from cationcalc.cli.arguments import window_arg
+
+            kind = window_arg
         extra = {"required": True} if field.is_required() else {"default": field.default}
         p.add_argument(flag, dest=name, metavar=meta["metavar"] or flag[2:].replace("-", "_").upper(), help=help_text,
                        **({"type": kind} if kind else {}), **extra)
@@ -409,6 +423,8 @@ def _options(args, task) -> dict:
         if cli_meta(field)["comma_list"]:
             value = [g.strip() for g in value.split(",") if g.strip()] if value else None
         options[name] = value
+    if getattr(args, "thorough", False):
+        options.update({k: v for k, v in THOROUGH_OPTIONS.items() if k in task.options.model_fields})
     return options
 
 

@@ -11,7 +11,9 @@
    the relaxed species (``rearranged``);
 5. ``_distinct_in_window``: remove duplicate conformers, keep those within
    the energy window;
-6. :func:`vibrate`: numerical Hessian for each, follow small imaginary modes
+6. :func:`vibrate`: numerical Hessian for each (``Settings.hessian_conformers``:
+   every conformer, the lowest only with its vibrational correction
+   transferred to the others, or none at the screening level), follow small imaginary modes
    (displace and re-optimise to a tight gradient), warn about large ones (a
    saddle point: a carbocation that wants to rearrange or bridge, or for
    other species an unresolved flat torsion), then the symmetry number from
@@ -137,7 +139,7 @@ def compute_species(sp: Species, settings: Settings = Settings(), engine: Engine
     optimised, optimisation_calls = _optimise_and_guard(job, screened)
     outcome = _bonding_outcome(job, optimised)
     distinct, window = _distinct_in_window(mol, job, outcome.pool)
-    vibrations = [vibrate(job, c) for c in window]
+    vibrations = _vibrate_window(job, window)
     followed = {id(c): v.conformer for c, v in zip(window, vibrations)}
     distinct = [followed.get(id(c), c) for c in distinct]
     ensemble = _ensemble(mol, job, [v.conformer for v in vibrations])
@@ -272,6 +274,44 @@ def saddle_warning(sp: Species, listing: str, attempts: int) -> str:
     kind = "neutral molecule" if sp.charge == 0 else ("anion" if sp.charge < 0 else "cation")
     return text + f"; for a {kind} this usually means a flat torsion or an unconverged structure, so its G is " \
         "less certain (the imaginary mode is left out)"
+
+
+#: the note of a conformer whose vibrational thermal correction is the lowest conformer's
+TRANSFERRED_NOTE = "vibrations of the lowest conformer"
+#: the note of a conformer at the screening level (no Hessian)
+ENERGY_ONLY_NOTE = "electronic energy only (screening level)"
+
+
+def _vibrate_window(job: SpeciesJob, window: list[Conformer]) -> list[Vibration]:
+    """Thermochemistry of every conformer in the window, with as many Hessians as the settings ask for.
+
+    'lowest': the lowest conformer gets the Hessian and mode following; the others keep their own
+    electronic energy, point group and moments of inertia and take its vibrational frequencies
+    (conformers of one species differ mostly in torsions, whose low modes the quasi-RRHO treats as
+    rotors; the error on ΔG_ion is measured in benchmarks/druglike.py).
+    """
+    mode = job.settings.hessian_conformers
+    if mode == "none":
+        return [Vibration(_energy_only(job, c)) for c in window]
+    if mode == "all" or len(window) == 1:
+        return [vibrate(job, c) for c in window]
+    lowest = vibrate(job, window[0])
+    frequencies = lowest.conformer.frequencies_cm1
+    others = [Vibration(_with_thermochemistry(job, replace(c, frequencies_cm1=frequencies, note=TRANSFERRED_NOTE)))
+              for c in window[1:]]
+    return [lowest] + others
+
+
+def _energy_only(job: SpeciesJob, conf: Conformer) -> Conformer:
+    """The conformer at the screening level: point group, no vibrations, thermal corrections of zero."""
+    group = point_group(job.numbers, conf.positions, job.settings.symmetry_tolerance_angstrom)
+    zero = thermo.Thermochemistry(
+        temperature_k=job.settings.temperature_k, pressure_pa=job.settings.pressure_pa,
+        symmetry_number=group.symmetry_number, spin_multiplicity=job.species.multiplicity, is_linear=False,
+        zpe_kcal_mol=0.0, thermal_energy_kcal_mol=0.0, enthalpy_correction_kcal_mol=0.0, entropy_J_mol_K=0.0,
+        s_translational_J_mol_K=0.0, s_rotational_J_mol_K=0.0, s_vibrational_J_mol_K=0.0,
+        s_electronic_J_mol_K=0.0, gibbs_correction_kcal_mol=0.0, used_qrrho=False, n_imaginary_ignored=0)
+    return replace(conf, group=group, thermo=zero, frequencies_cm1=np.zeros(0), note=ENERGY_ONLY_NOTE)
 
 
 def vibrate(job: SpeciesJob, conf: Conformer) -> Vibration:

@@ -53,6 +53,8 @@ class MethodSpec(_Strict):
     qrrho: bool = True
     enantiomer_mixing: bool = False
     scf_max_iterations: int = Field(250, ge=1)
+    hessian_conformers: Literal["all", "lowest", "none"] = Field(
+        "lowest", description=Settings.model_fields["hessian_conformers"].description)
 
     @field_validator("solvent", mode="before")
     @classmethod
@@ -208,6 +210,7 @@ class Workflow(_Strict):
         return Settings(engine=m.engine, method=m.method, solvent=solvent, temperature_k=m.temperature_k,
                         pressure_pa=m.pressure_pa, qrrho=m.qrrho, enantiomer_mixing=m.enantiomer_mixing,
                         scf_max_iterations=m.scf_max_iterations, optimizer=o.algorithm,
+                        hessian_conformers=m.hessian_conformers,
                         fmax_ev_per_angstrom=o.fmax_ev_per_angstrom, max_steps=o.max_steps,
                         conformers=self.conformers)
 

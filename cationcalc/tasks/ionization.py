@@ -39,6 +39,8 @@ from cationcalc.chem.ionization import (TERT_BUTYL, IonizationSite, equilibrium_
 from cationcalc.chem.leaving_groups import attach, ladder_groups, leaving_group as lookup_leaving_group
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.compute.properties import heterolysis_energy, hydride_ion_affinity
+from cationcalc.tasks.funnel import (DEFAULT_SHIFT_WINDOW_KCAL_MOL, DEFAULT_SITE_WINDOW_KCAL_MOL, funnel_sites,
+                                     funnel_shift_products, shift_products)
 from cationcalc.tasks.records import Prepared, record_base, collect_warnings, species_profile
 from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE, hia_reference, load_table
 from cationcalc.chem.species import InputError, Species, hydride_adduct
@@ -234,10 +236,14 @@ def spearman_rho(x: list[float], y: list[float]) -> float:
 
 
 def collate(task: str, records: list[dict], settings: Settings) -> list[dict]:
-    """Per-input post-processing into new records: choose (ionize) or rank (sites, ladder)."""
+    """Per-input post-processing into new records: choose (ionize) or rank (sites, ladder).
+
+    Sites the funnel screened out come after the ranked ones (sites) or among the alternatives (ionize).
+    """
     if task not in ("ionize", "sites", "ladder"):
         return records
-    ok = [r for r in records if not r.get("error")]
+    ok = [r for r in records if not r.get("error") and not r.get("screened")]
+    screened = [r for r in records if r.get("screened")]
     failed = [r for r in records if r.get("error")]
     if task == "ionize":
         return [_chosen_site(records, ok, failed)]
@@ -249,7 +255,7 @@ def collate(task: str, records: list[dict], settings: Settings) -> list[dict]:
     ranked = [_ranked(r, rank, key, ok[0][key]) for rank, r in enumerate(ok, 1)]
     if task == "ladder":
         ranked = _with_solvolysis(ranked)
-    return ranked + failed
+    return ranked + screened + failed
 
 
 def _chosen_site(records: list[dict], ok: list[dict], failed: list[dict]) -> dict:
@@ -257,8 +263,8 @@ def _chosen_site(records: list[dict], ok: list[dict], failed: list[dict]) -> dic
     if not ok:
         return failed[0] if len(failed) == 1 else _merge_errors(failed)
     best = min(ok, key=_rank_key("dG_ion_kcal_mol"))
-    out = {**best, "alternatives": [{k: r.get(k) for k in ("site_atom", "leaving_group", "cation_smiles",
-                                                            "dG_ion_kcal_mol", "verdict", "error")}
+    keys = ("site_atom", "leaving_group", "cation_smiles", "dG_ion_kcal_mol", "verdict", "error")
+    out = {**best, "alternatives": [{k: r.get(k) for k in keys + (SCREENED_KEYS if r.get("screened") else ())}
                                      for r in records if r is not best]}
     if out["alternatives"]:
         out["warnings"] = best["warnings"] + [f"{len(records)} ionization sites: the most favourable is shown; "
@@ -302,11 +308,13 @@ def _with_solvolysis(ranked: list[dict]) -> list[dict]:
 
 def attach_shifts(records: list[dict], known: dict, settings: Settings, *, workers: int = 1,
                   store: ResultStore | None = None, progress: Progress | None = None,
-                  threshold_kcal_mol: float | None = None) -> list[dict]:
+                  threshold_kcal_mol: float | None = None,
+                  window_kcal_mol: float | None = DEFAULT_SHIFT_WINDOW_KCAL_MOL) -> list[dict]:
     """New records with a ``shifts`` section: the downhill 1,2-shifts of every cation formed (one shift deep).
 
     Cations already computed for the records (``known``: species → result) are
-    reused; only the shift products are new.  Records gain ``shifts`` (the
+    reused; only the shift products are new, and of those only the ones at most ``window_kcal_mol`` above
+    their cation at the screening level (:mod:`cationcalc.tasks.funnel`; None: all).  Records gain ``shifts`` (the
     flagged shifts, keys as in ``cationcalc shifts``), ``sink_smiles`` and a
     one-line ``shift_summary``.
     """
@@ -315,15 +323,19 @@ def attach_shifts(records: list[dict], known: dict, settings: Settings, *, worke
 
     threshold = DEFAULT_THRESHOLD_KCAL_MOL if threshold_kcal_mol is None else threshold_kcal_mol
     cations = list(dict.fromkeys(r["cation_smiles"] for r in records
-                                 if not r.get("error") and r.get("cation_smiles")))
+                                 if not r.get("error") and not r.get("screened") and r.get("cation_smiles")))
     if not cations:
         return records
+    parents = shift_products(cations)
+    ctx = {"workers": workers, "progress": progress, "store": store}
 
     def compute(species_list):
         out = {sp: known[sp] for sp in species_list if sp in known}
         missing = [sp for sp in species_list if sp not in out]
-        if missing:
-            out.update(compute_many(missing, settings, workers=workers, progress=progress, store=store))
+        full, screened = funnel_shift_products(missing, parents, settings, window_kcal_mol, ctx)
+        out.update(screened)
+        if full:
+            out.update(compute_many(full, settings, workers=workers, progress=progress, store=store))
         return out
 
     found = dict(zip(cations, run_shifts([(c, "") for c in cations], settings, depth=1,
@@ -398,6 +410,12 @@ def _known_medium(value):
     return medium(str(value)).code  # InputError (a ValueError) lists the known media
 
 
+SITE_WINDOW_HELP = ("sites more than this above the best at the screening level (one conformer, no Hessian) are "
+                    "not computed in full (kcal/mol, default {default}; none: every site)")
+SHIFT_WINDOW_HELP = ("shift products more than this above their cation at the screening level are not computed in "
+                     "full (kcal/mol, default {default}; none: every product)")
+
+
 class IonizeOptions(RefinableOptions):
     leaving_group: str = option("auto", "leaving group to break (name from the library, e.g. OTs, chloride), "
                                         "or auto")
@@ -409,6 +427,10 @@ class IonizeOptions(RefinableOptions):
                           cli_help="skip the screen for downhill 1,2-shifts of the cation formed")
     medium: str | None = option(None, "solvolysis medium for rate constants and half-lives (80E20W, '80% ethanol', "
                                       "'97% TFE (w/w)', water, …); the verdict then speaks in time")
+    site_window_kcal_mol: float | None = option(DEFAULT_SITE_WINDOW_KCAL_MOL, SITE_WINDOW_HELP, ge=0,
+                                                flag="--site-window", metavar="KCAL_MOL")
+    shift_window_kcal_mol: float | None = option(DEFAULT_SHIFT_WINDOW_KCAL_MOL, SHIFT_WINDOW_HELP, ge=0,
+                                                 flag="--shift-window", metavar="KCAL_MOL")
 
     _medium = field_validator("medium")(classmethod(lambda cls, v: _known_medium(v)))
 
@@ -418,6 +440,10 @@ class SitesOptions(RefinableOptions):
     hydride: bool = option(False, "scan hydride abstraction at every C–H even when a leaving group is present")
     shifts: bool = option(True, "screen each cation formed for downhill 1,2-shifts",
                           cli_help="skip the screen for downhill 1,2-shifts of the cations formed")
+    site_window_kcal_mol: float | None = option(DEFAULT_SITE_WINDOW_KCAL_MOL, SITE_WINDOW_HELP, ge=0,
+                                                flag="--site-window", metavar="KCAL_MOL")
+    shift_window_kcal_mol: float | None = option(DEFAULT_SHIFT_WINDOW_KCAL_MOL, SHIFT_WINDOW_HELP, ge=0,
+                                                 flag="--shift-window", metavar="KCAL_MOL")
 
 
 class LadderOptions(RefinableOptions):
@@ -443,6 +469,36 @@ def _ladder(text: str, name: str, settings: Settings, options: dict, force: bool
     return prepare_ladder(text, name, settings, groups=with_defaults(LadderOptions, options)["groups"], force=force)
 
 
+#: the keys of a site the funnel screened out, besides the site's own
+SCREENED_KEYS = ("screened", "screened_above_best_kcal_mol", "dE_ion_screen_kcal_mol")
+
+
+def _screened_site(p: Prepared, score_kcal_mol: float, above_best_kcal_mol: float, outranked: bool) -> dict:
+    """The record of a site the funnel screened out: where it stood at the screening level, why no number."""
+    heterolysis = "substrate" in p.needs
+    where = f"{'ΔE_ion' if heterolysis else 'the cation'} at the screening level (one conformer, no Hessian)"
+    why = (f"the {p.base['cation_class']} cation ranks after the stabilized sites (structurally flagged, or not a "
+           f"minimum at the screening level) whatever its energy ({where} {above_best_kcal_mol:+.1f} kcal/mol "
+           "against the best)" if outranked else
+           f"{where} is {above_best_kcal_mol:.1f} kcal/mol above the best site's, outside the site window")
+    return {**p.base, "screened": True, "screened_above_best_kcal_mol": round(above_best_kcal_mol, 2),
+            "dE_ion_screen_kcal_mol": round(score_kcal_mol, 2) if heterolysis else None,
+            "verdict": "screened out",
+            "verdict_reason": why + "; not computed in full (--site-window none or --thorough computes every site)",
+            "warnings": [], "rearranged": False, "profile": {}}
+
+
+def funnel(groups: list[list[Prepared]], settings: Settings, options: dict, ctx: dict) -> list[list[Prepared]]:
+    """ionize, sites: the sites outside the window at the screening level are not computed in full."""
+    return funnel_sites(groups, settings, options.get("site_window_kcal_mol", DEFAULT_SITE_WINDOW_KCAL_MOL), ctx,
+                        _screened_site, tier=_screening_tier)
+
+
+def _screening_tier(p: Prepared, results: dict[str, SpeciesResult]) -> tuple:
+    """The ranking's tiers at the screening level: flagged cations, then cations that are not minima, rank after."""
+    return (structurally_flagged(p.base["cation_class"]), bool(results["cation"].rearranged))
+
+
 def screen_shifts(records: list[dict], options: dict, ctx: StepContext) -> list[dict]:
     """Step after collation: the downhill 1,2-shifts of every cation formed, when ``shifts`` is on."""
     if not options.get("shifts"):
@@ -451,7 +507,8 @@ def screen_shifts(records: list[dict], options: dict, ctx: StepContext) -> list[
 
     known = {sp: r for sp, r in ctx.results.items() if not isinstance(r, SpeciesFailure)}
     return attach_shifts(records, known, ctx.settings, workers=ctx.workers, store=ctx.store, progress=ctx.progress,
-                         threshold_kcal_mol=options.get("shift_threshold_kcal_mol"))
+                         threshold_kcal_mol=options.get("shift_threshold_kcal_mol"),
+                         window_kcal_mol=options.get("shift_window_kcal_mol", DEFAULT_SHIFT_WINDOW_KCAL_MOL))
 
 
 _WIDE_SHIFT = ("shift_summary", "downhill 1,2-shift (ΔG)")
@@ -468,7 +525,7 @@ IONIZE = register(TaskSpec(
           ("equilibrium_factor", "K/K_ref (equilibrium)"), ("half_life_text", "half-life"),
           ("verdict", "verdict"), _WIDE_SHIFT),
     title="ionization R–X → R⁺ + X", report_title="will it ionize? R–X → R⁺ + X",
-    prepare=_ionize, collate=partial(collate, "ionize"), after=(screen_shifts, medium_rates), **_HOOKS))
+    prepare=_ionize, funnel=funnel, collate=partial(collate, "ionize"), after=(screen_shifts, medium_rates), **_HOOKS))
 
 SITES = register(TaskSpec(
     name="sites", record=SitesRecord,
@@ -486,7 +543,7 @@ SITES = register(TaskSpec(
           ("hia_kcal_mol", "HIA kcal/mol"), ("hia_vs_best_kcal_mol", "Δ vs #1"), ("verdict", "verdict"),
           _WIDE_SHIFT),
     title="ionization sites", report_title="where does it ionize? (sites ranked)",
-    prepare=_sites, collate=partial(collate, "sites"), after=(screen_shifts,), calibrated=True, **_HOOKS))
+    prepare=_sites, funnel=funnel, collate=partial(collate, "sites"), after=(screen_shifts,), calibrated=True, **_HOOKS))
 
 LADDER = register(TaskSpec(
     name="ladder", record=LadderRecord,

@@ -397,8 +397,17 @@ class ThermoRecord(CalibrationFields, RefinementFields, ThermoXtb, ThermoValues,
     relaxed_smiles: str | None = _d("SMILES the species relaxed to (None when it kept its bonding)")
 
 
+class Screening(Record):
+    """Sites the funnel ranked at the screening level and did not compute in full."""
+
+    screened: bool | None = _d("true: this site was screened out (outside the site window) and has no ΔG_ion")
+    screened_above_best_kcal_mol: float | None = _d("how far above the best site it was at the screening level "
+                                                    "(one conformer, no Hessian), kcal/mol")
+    dE_ion_screen_kcal_mol: float | None = _d("ΔE_ion at the screening level (heterolysis sites), kcal/mol")
+
+
 class _IonizationBase(CalibrationFields, RefinementFields, Kinetics, ShiftScreen, IonizationXtb, IonizationValues,
-                      IonizationNotes, Judgement, Site, Outcome, Inputs):
+                      IonizationNotes, Judgement, Site, Screening, Outcome, Inputs):
     """Keys shared by the ionize, sites and ladder records."""
 
 
@@ -406,7 +415,8 @@ class IonizeRecord(_IonizationBase):
     """``ionize``: the most favourable ionization of each substrate, with the others as alternatives."""
 
     alternatives: list[dict[str, Any]] | None = _d("the other sites: site_atom, leaving_group, cation_smiles, "
-                                                   "dG_ion_kcal_mol, verdict, error")
+                                                   "dG_ion_kcal_mol, verdict, error (and for a "
+                                                   "screened-out site the screening keys)")
 
 
 class SitesRecord(Ranking, HiaXtb, HiaValues, HiaReference, _IonizationBase):

@@ -122,6 +122,9 @@ class TaskSpec:
     #: (items, settings, **options, workers, force, progress, store) → records, for a task that runs itself
     run: Callable[..., list[dict]] | None = None
     collate: Callable[[list[dict], Any], list[dict]] = keep  #: records of one input → ranked or chosen records
+    #: (groups, settings, options, context) → groups: requests set aside before the full computation (the site
+    #: funnel), None: every request is computed in full
+    funnel: Callable[..., list] | None = None
     #: steps after collation, each (records, options, context) → records; they may raise Interrupted
     after: tuple[Callable[..., list[dict]], ...] = ()
     refine: Callable[..., list] | None = None  #: DFT refinement hook (refine_task_records), None: not refinable

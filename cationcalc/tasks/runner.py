@@ -137,8 +137,10 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
 
 
 def _run(task: TaskSpec, items, settings: Settings, options: dict, ctx: dict) -> list[Record]:
-    """prepare → compute → finish → refine → collate → further steps → error bars."""
+    """prepare → funnel → compute → finish → refine → collate → further steps → error bars."""
     groups = [task.prepare(text, name, settings, options, ctx["force"]) for text, name in items]
+    if task.funnel is not None:
+        groups = task.funnel(groups, settings, options, ctx)
     results, interrupted = _compute(groups, settings, {k: ctx[k] for k in ("workers", "progress", "store")})
     finished_groups = [_finish(group, results) for group in groups]
     refined = bool(options.get("refine")) and not interrupted and task.refine is not None

@@ -39,6 +39,7 @@ from cationcalc.chem.species import InputError, Species, carbocation
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.execution.executors import Interrupted, Progress, compute_many
 from cationcalc.execution.store import ResultStore
+from cationcalc.tasks.funnel import ScreenedOut
 from cationcalc.tasks.records import BatchInterrupted, record_base, species_profile
 from cationcalc.tasks.record_types import ShiftsRecord, typed_records
 from cationcalc.tasks.registry import TaskOptions, TaskSpec, option, register
@@ -222,6 +223,8 @@ def _shift_entry(search: ShiftSearch, cand: ShiftCandidate, pres: SpeciesResult,
     node = search.nodes.get(cand.product_smiles)
     if node is None or node.result is None:
         entry["error"] = "not computed (species cap reached)"
+    elif isinstance(node.result, ScreenedOut):
+        entry["screened_out"] = node.result.message
     elif not node.ok:
         entry["error"] = node.result.message
     else:
@@ -257,7 +260,8 @@ def _record_warnings(search: ShiftSearch, pres: SpeciesResult, sink: str | None)
     if search.truncated:
         warnings.append(f"search stopped at {search.max_species} species: a lower sink may exist beyond it "
                         "(raise max_species)")
-    failed = [n for n in search.nodes.values() if n.result is not None and not n.ok]
+    failed = [n for n in search.nodes.values() if n.result is not None and not n.ok
+              and not isinstance(n.result, ScreenedOut)]
     for n in failed:
         warnings.append(f"{n.smiles}: {n.result.message}")
     if search.stopped and any(n.result is None for n in search.nodes.values()):
