@@ -251,7 +251,9 @@ def test_docstring_examples_run(module):
 
 # ------------------------------------------------------------------------------ stores written before the move
 
-REQUEST = ["hia", "C[C+](C)C", "C[CH+]c1ccccc1", "--solvent", "none", "--workers", "1"]
+#: the command that wrote the store; its results were computed with the full protocol (a Hessian on every
+#: conformer, LBFGS), which is --thorough since the fast path became the default
+REQUEST = ["hia", "C[C+](C)C", "C[CH+]c1ccccc1", "--solvent", "none", "--workers", "1", "--thorough"]
 
 
 @pytest.fixture
@@ -289,8 +291,8 @@ def test_the_old_store_counts_only_hits(old_store):
 
     saved = json.loads((DATA / "records_from_that_store_0.1.0.json").read_text(encoding="utf-8"))
     with ResultStore(old_store) as store:
-        records = run_task("hia", [("C[C+](C)C", ""), ("C[CH+]c1ccccc1", "")], Settings(solvent="none"),
-                           workers=1, store=store)
+        records = run_task("hia", [("C[C+](C)C", ""), ("C[CH+]c1ccccc1", "")],
+                           Settings(solvent="none").full_protocol(), workers=1, store=store)
         assert (store.misses, store.writes) == (0, 0)
         assert store.hits == len(store.touched) == 4  # two cations, their hydride adducts (tert-butyl is the anchor)
     records = [{k: v for k, v in dict(r).items() if k != "profile"} for r in records]
