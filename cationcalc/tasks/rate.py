@@ -98,9 +98,11 @@ def rate_options(options: dict) -> dict:
 
 
 def descriptor_settings(settings: Settings) -> Settings:
-    """The settings the E_f calibration was computed with (gas phase, 298.15 K, tblite), user's numerics kept."""
-    return Settings.model_validate({**settings.model_dump(), "solvent": DESCRIPTOR_SOLVENT, "engine": "tblite",
-                                    "temperature_k": ELECTROFUGE_TEMPERATURE_K, "pressure_pa": 101325.0})
+    """The settings the E_f calibration was computed with (gas phase, 298.15 K, tblite, the full protocol:
+    a Hessian on every conformer, LBFGS), the user's other numerics kept."""
+    return Settings.model_validate({**settings.full_protocol().model_dump(), "solvent": DESCRIPTOR_SOLVENT,
+                                    "engine": "tblite", "temperature_k": ELECTROFUGE_TEMPERATURE_K,
+                                    "pressure_pa": 101325.0})
 
 
 # ---------------------------------------------------------------- applicability
