@@ -441,6 +441,8 @@ def _run(args, items, settings, workers, progress, store) -> list[dict]:
 
     if options.get("medium") and "temperature_k" not in options:
         options["rate_temperature_k"] = args.temperature
+    if args.profile or progress is not None:
+        options["plan_log"] = lambda line: print(("\n" if progress else "") + line, file=sys.stderr, flush=True)
     if getattr(args, "refine", None):
         options["refine"] = args.refine
         options["refine_log"] = lambda line: print(line, file=sys.stderr, flush=True)

@@ -61,6 +61,21 @@ def _finish(group: list[Prepared], results: dict) -> list[dict]:
     return finished
 
 
+def plan_summary(groups: list[list[Prepared]]) -> str:
+    """One line: species the requests name, the duplicates removed before anything runs, those left.
+
+    >>> from cationcalc.chem.species import Species
+    >>> tbu = Species("C[C+](C)C", 1, 1)
+    >>> plan_summary([[Prepared({}, {"cation": tbu, "reference_cation": tbu})]])
+    'plan: 2 species requested by 1 input, 1 duplicate removed, 1 distinct'
+    """
+    needed = [sp for group in groups for p in group if p.error is None for sp in p.needs.values()]
+    distinct = len(dict.fromkeys(needed))
+    removed = len(needed) - distinct
+    return (f"plan: {len(needed)} species requested by {len(groups)} input{'s' if len(groups) != 1 else ''}, "
+            f"{removed} duplicate{'s' if removed != 1 else ''} removed, {distinct} distinct")
+
+
 def _compute(groups: list[list[Prepared]], settings: Settings, ctx: dict) -> tuple[dict, bool]:
     """Every species the requests need, computed once: (results, interrupted)."""
     needed = [sp for group in groups for p in group if p.error is None for sp in p.needs.values()]
@@ -115,7 +130,8 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
     structures (:mod:`cationcalc.execution.refine`); refined values take the usual keys,
     the GFN2-xTB ones sit beside them with ``_xtb`` before the unit;
     ``refine_top_k`` / ``refine_window_kcal_mol`` refine only the best
-    requests of a ranking, ``refine_log`` receives the cost estimates.
+    requests of a ranking, ``refine_log`` receives the cost estimates, ``plan_log`` the line of
+    :func:`plan_summary` (species requested, duplicates removed) before anything is computed.
 
     ``store`` (optional) is passed to :func:`~cationcalc.execution.executors.compute_many`
     so species already computed with the same settings are read, not recomputed.
@@ -141,6 +157,8 @@ def _run(task: TaskSpec, items, settings: Settings, options: dict, ctx: dict) ->
     groups = [task.prepare(text, name, settings, options, ctx["force"]) for text, name in items]
     if task.funnel is not None:
         groups = task.funnel(groups, settings, options, ctx)
+    if options.get("plan_log"):
+        options["plan_log"](plan_summary(groups))
     results, interrupted = _compute(groups, settings, {k: ctx[k] for k in ("workers", "progress", "store")})
     finished_groups = [_finish(group, results) for group in groups]
     refined = bool(options.get("refine")) and not interrupted and task.refine is not None
