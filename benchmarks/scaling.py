@@ -11,7 +11,11 @@ thermochemistry) with one conformer, so that only size varies:
   * alkyl: tertiary 2-methyl-2-alkyl cations (CH3)2C+–(CH2)k–H;
   * aryl: oligo(p-phenylene)methyl cations Ph–(C6H4)k–CH2+ (benzyl upwards).
 Cost is fitted as wall ∝ atoms^p (log-log least squares) and p printed, with
-the per-gradient cost and the number of gradients separately.
+the per-gradient cost and the number of gradients separately, and against
+heavy atoms (wall and gradients ∝ heavy^p).
+``--species-from benchmarks/results/druglike_LABEL.json``: no computation; the
+same heavy-atom exponents fitted over the species a drug-like run computed
+(``benchmarks/druglike.py``), i.e. the cost exponent of that protocol.
 Conformers: one pair (2-octyl cation / octane) with the conformer cap and the
 number optimised set to 1, 2, 4, 8, 16; cost ∝ conformers^q.
 Writes ``benchmarks/results/scaling.json``.
@@ -61,6 +65,7 @@ def child(smiles: str, cap: int) -> None:
             out["failed"].append(f"{sp.smiles}: {r.message}")
             continue
         out["atoms"] = max(out["atoms"], len(r.numbers))
+        out["heavy_atoms"] = max(out.get("heavy_atoms", 0), sum(1 for z in r.numbers if z > 1))
         out["engine_s"] += r.profile.engine_s
         out["gradients"] += sum(r.profile.gradients.values())
         out["conformers_in_window"] = len([c for c in r.conformers if c.weight > 0])
@@ -71,6 +76,31 @@ def child(smiles: str, cap: int) -> None:
     print(json.dumps(out))
 
 
+def species_exponent(path: Path) -> dict:
+    """Heavy-atom cost exponents over the species of a drug-like run (benchmarks/druglike.py results)."""
+    data = json.loads(path.read_text(encoding="utf-8"))
+    out = {}
+    for run in data["runs"]:
+        pts = [sp for sp in run["species"] if sp["wall_s"] > 0 and sum(sp["gradients"].values()) > 0]
+        if len({sp["heavy_atoms"] for sp in pts}) < 3:
+            print(f"workers {run['workers']}: fewer than 3 sizes, no fit")
+            continue
+        heavy = [sp["heavy_atoms"] for sp in pts]
+        fit = {"species": len(pts), "heavy_atoms": [min(heavy), max(heavy)],
+               "wall": fit_exponent(heavy, [sp["wall_s"] for sp in pts]),
+               "gradients": fit_exponent(heavy, [sum(sp["gradients"].values()) for sp in pts])}
+        big = [sp for sp in pts if sp["heavy_atoms"] >= 10]
+        if len({sp["heavy_atoms"] for sp in big}) >= 3:
+            fit["wall_10_plus"] = fit_exponent([sp["heavy_atoms"] for sp in big], [sp["wall_s"] for sp in big])
+        lo, hi = fit["heavy_atoms"]
+        print(f"{path.name} (label {data.get('label')!r}), workers {run['workers']}: {fit['species']} species, "
+              f"{lo}–{hi} heavy atoms: species wall ∝ heavy^{fit['wall']:.2f}, "
+              f"gradients ∝ heavy^{fit['gradients']:.2f}"
+              + (f"; from 10 heavy atoms up wall ^{fit['wall_10_plus']:.2f}" if "wall_10_plus" in fit else ""))
+        out[str(run["workers"])] = fit
+    return out
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--max-atoms", type=int, default=150)
@@ -78,12 +108,17 @@ def main() -> None:
     parser.add_argument("--conformer-counts", type=int, nargs="+", default=[1, 2, 4, 8, 16])
     parser.add_argument("--skip-conformers", action="store_true")
     parser.add_argument("--name", default="scaling", help="results file name (benchmarks/results/NAME.json)")
+    parser.add_argument("--species-from", type=Path, default=None,
+                        help="a druglike.py results file: the heavy-atom exponent over its species, no computation")
     parser.add_argument("--child", action="store_true", help=argparse.SUPPRESS)
     parser.add_argument("--smiles", help=argparse.SUPPRESS)
     parser.add_argument("--cap", type=int, default=1, help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
         child(args.smiles, args.cap)
+        return
+    if args.species_from:
+        species_exponent(args.species_from)
         return
     script = Path(__file__).resolve()
     print(f"machine: {machine()}")
@@ -110,12 +145,19 @@ def main() -> None:
             fit = {"wall": fit_exponent(atoms, [p["wall_s"] for p in good]),
                    "gradients": fit_exponent(atoms, [p["gradients"] for p in good]),
                    "per_gradient": fit_exponent(atoms, [p["engine_s"] / p["gradients"] for p in good])}
+            heavy = [p.get("heavy_atoms") for p in good]
+            if all(heavy) and len(set(heavy)) >= 3:
+                fit["heavy_wall"] = fit_exponent(heavy, [p["wall_s"] for p in good])
+                fit["heavy_gradients"] = fit_exponent(heavy, [p["gradients"] for p in good])
             big = [p for p in good if p["atoms"] >= 40]
             if len(big) >= 3:
                 fit["wall_40_plus"] = fit_exponent([p["atoms"] for p in big], [p["wall_s"] for p in big])
             print(f"{family}: wall ∝ atoms^{fit['wall']:.2f} (gradients ^{fit['gradients']:.2f}, cost per gradient "
                   f"^{fit['per_gradient']:.2f})" + (f"; from 40 atoms up ^{fit['wall_40_plus']:.2f}"
                                                      if "wall_40_plus" in fit else ""))
+            if "heavy_wall" in fit:
+                print(f"{family}: against heavy atoms wall ∝ heavy^{fit['heavy_wall']:.2f}, gradients "
+                      f"^{fit['heavy_gradients']:.2f}")
         payload["size"][family] = {"points": points, "exponent": fit}
     if not args.skip_conformers:
         print("\nconformer count: 2-octyl cation + octane, water (cap = number optimised)")
