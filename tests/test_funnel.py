@@ -46,7 +46,8 @@ def test_the_funnel_computes_the_tertiary_site_and_screens_out_the_primary_one(t
     assert funnelled["dG_ion_kcal_mol"] == full["dG_ion_kcal_mol"]
     (other,) = funnelled["alternatives"]
     assert other["screened"] is True and other["dG_ion_kcal_mol"] is None and other["verdict"] == "screened out"
-    assert other["screened_above_best_kcal_mol"] > 2.0
+    assert other["screen_gap_kcal_mol"] > 2.0
+    assert funnelled["screen_gap_kcal_mol"] == 0.0 and "dE_ion_screen_kcal_mol" in funnelled
     (computed,) = full["alternatives"]
     assert computed["dG_ion_kcal_mol"] > full["dG_ion_kcal_mol"] and "screened" not in computed
 

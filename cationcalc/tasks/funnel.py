@@ -129,10 +129,19 @@ def funnel_sites(groups: list[list[Prepared]], settings: Settings, window_kcal_m
         best_tier = min(t for t, _ in ranks.values()) if ranks else ()
         best = min((v for t, v in ranks.values() if t == best_tier), default=0.0)
         keep = {i for i, (t, v) in ranks.items() if t == best_tier and v - best <= window_kcal_mol}
-        out.append([p if i not in ranks or i in keep
+        out.append([p if i not in ranks
+                    else _with_screening(p, ranks[i][1], ranks[i][1] - best) if i in keep
                     else _screened_out(p, ranks[i][1], ranks[i][1] - best, ranks[i][0] != best_tier, screened_record)
                     for i, p in enumerate(group)])
     return out
+
+
+def _with_screening(p: Prepared, score: float, gap: float) -> Prepared:
+    """A kept request whose record also says where it stood at the screening level."""
+    finish = p.finish
+    extra = {"screen_gap_kcal_mol": round(gap, 2),
+             **({"dE_ion_screen_kcal_mol": round(score, 2)} if "substrate" in p.needs else {})}
+    return replace(p, finish=lambda results: {**finish(results), **extra})
 
 
 def _screened_out(p: Prepared, score: float, above: float, outranked: bool,

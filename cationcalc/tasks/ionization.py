@@ -264,7 +264,7 @@ def _chosen_site(records: list[dict], ok: list[dict], failed: list[dict]) -> dic
         return failed[0] if len(failed) == 1 else _merge_errors(failed)
     best = min(ok, key=_rank_key("dG_ion_kcal_mol"))
     keys = ("site_atom", "leaving_group", "cation_smiles", "dG_ion_kcal_mol", "verdict", "error")
-    out = {**best, "alternatives": [{k: r.get(k) for k in keys + (SCREENED_KEYS if r.get("screened") else ())}
+    out = {**best, "alternatives": [{k: r.get(k) for k in keys + SCREENED_KEYS if k in keys or k in r}
                                      for r in records if r is not best]}
     if out["alternatives"]:
         out["warnings"] = best["warnings"] + [f"{len(records)} ionization sites: the most favourable is shown; "
@@ -470,7 +470,7 @@ def _ladder(text: str, name: str, settings: Settings, options: dict, force: bool
 
 
 #: the keys of a site the funnel screened out, besides the site's own
-SCREENED_KEYS = ("screened", "screened_above_best_kcal_mol", "dE_ion_screen_kcal_mol")
+SCREENED_KEYS = ("screened", "screen_gap_kcal_mol", "dE_ion_screen_kcal_mol")
 
 
 def _screened_site(p: Prepared, score_kcal_mol: float, above_best_kcal_mol: float, outranked: bool) -> dict:
@@ -481,7 +481,7 @@ def _screened_site(p: Prepared, score_kcal_mol: float, above_best_kcal_mol: floa
            f"minimum at the screening level) whatever its energy ({where} {above_best_kcal_mol:+.1f} kcal/mol "
            "against the best)" if outranked else
            f"{where} is {above_best_kcal_mol:.1f} kcal/mol above the best site's, outside the site window")
-    return {**p.base, "screened": True, "screened_above_best_kcal_mol": round(above_best_kcal_mol, 2),
+    return {**p.base, "screened": True, "screen_gap_kcal_mol": round(above_best_kcal_mol, 2),
             "dE_ion_screen_kcal_mol": round(score_kcal_mol, 2) if heterolysis else None,
             "verdict": "screened out",
             "verdict_reason": why + "; not computed in full (--site-window none or --thorough computes every site)",

@@ -401,8 +401,8 @@ class Screening(Record):
     """Sites the funnel ranked at the screening level and did not compute in full."""
 
     screened: bool | None = _d("true: this site was screened out (outside the site window) and has no ΔG_ion")
-    screened_above_best_kcal_mol: float | None = _d("how far above the best site it was at the screening level "
-                                                    "(one conformer, no Hessian), kcal/mol")
+    screen_gap_kcal_mol: float | None = _d("how far above the best site this site was at the screening level "
+                                           "(one conformer, no Hessian; sites of an input with several), kcal/mol")
     dE_ion_screen_kcal_mol: float | None = _d("ΔE_ion at the screening level (heterolysis sites), kcal/mol")
 
 
