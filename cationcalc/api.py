@@ -80,7 +80,7 @@ class Records(list):
 def hia(smiles: Inputs, *, solvent: str | None = None, reference: str = DEFAULT_HIA_REFERENCE,
         calibrated: bool = False, refine: str | bool | None = None, engine: str = _ENGINE,
         temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
-        rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False,
+        rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
         store: StoreLike = None, profile: bool = False) -> Records:
     """Hydride-ion affinities of carbocations (``cationcalc hia``), anchored on ``reference``."""
     return _run("hia", smiles, _common(locals()), reference=reference, calibrated=calibrated, refine=refine)
@@ -89,7 +89,7 @@ def hia(smiles: Inputs, *, solvent: str | None = None, reference: str = DEFAULT_
 def heterolysis(smiles: Inputs, *, solvent: str | None = None, refine: str | bool | None = None,
                 engine: str = _ENGINE, temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA,
                 conformers: int | None = None, rrho: bool = False, mix_enantiomers: bool = False,
-                workers: int | None = None, force: bool = False, store: StoreLike = None,
+                workers: int | None = None, force: bool = False, thorough: bool = False, store: StoreLike = None,
                 profile: bool = False) -> Records:
     """R–X → R⁺ + X⁻ energies (``cationcalc heterolysis``)."""
     return _run("heterolysis", smiles, _common(locals()), refine=refine)
@@ -97,7 +97,7 @@ def heterolysis(smiles: Inputs, *, solvent: str | None = None, refine: str | boo
 
 def thermo(smiles: Inputs, *, solvent: str | None = None, refine: str | bool | None = None, engine: str = _ENGINE,
            temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
-           rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False,
+           rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
            store: StoreLike = None, profile: bool = False) -> Records:
     """Energy, ZPE, H, S, G, symmetry and frequencies of any species (``cationcalc thermo``)."""
     return _run("thermo", smiles, _common(locals()), refine=refine)
@@ -107,7 +107,7 @@ def ionize(smiles: Inputs, *, solvent: str | None = None, leaving_group: str = "
            reference: str | None = None, shifts: bool = True, medium: str | None = None,
            refine: str | bool | None = None, engine: str = _ENGINE, temperature: float = _TEMPERATURE_K,
            pressure: float = _PRESSURE_PA, conformers: int | None = None, rrho: bool = False,
-           mix_enantiomers: bool = False, workers: int | None = None, force: bool = False,
+           mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
            store: StoreLike = None, profile: bool = False) -> Records:
     """ΔG of R–X → R⁺ + X with a verdict (``cationcalc ionize``); ``reference`` is the substrate SMILES
     ΔΔG_ion is measured against, ``shifts=False`` is ``--no-shifts``, ``medium`` adds half-lives."""
@@ -118,7 +118,7 @@ def ionize(smiles: Inputs, *, solvent: str | None = None, leaving_group: str = "
 def sites(smiles: Inputs, *, solvent: str | None = None, acid: bool = False, hydride: bool = False,
           shifts: bool = True, calibrated: bool = False, refine: str | bool | None = None, engine: str = _ENGINE,
           temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
-          rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False,
+          rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
           store: StoreLike = None, profile: bool = False) -> Records:
     """Every ionization site of a substrate, ranked (``cationcalc sites``); ``hydride`` scans every C–H."""
     return _run("sites", smiles, _common(locals()), acid=acid, hydride=hydride, shifts=shifts,
@@ -128,7 +128,7 @@ def sites(smiles: Inputs, *, solvent: str | None = None, acid: bool = False, hyd
 def ladder(smiles: Inputs, *, solvent: str | None = None, groups: str | Iterable[str] | None = None,
            medium: str | None = None, refine: str | bool | None = None, engine: str = _ENGINE,
            temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
-           rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False,
+           rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
            store: StoreLike = None, profile: bool = False) -> Records:
     """ΔG_ion of one skeleton written with ``*`` for every leaving group (``cationcalc ladder``);
     ``groups`` a list of names (or one comma-separated text) limits the library."""
@@ -164,7 +164,7 @@ def rate(smiles: Inputs, *, medium: str | list[str], temperature: float = _TEMPE
 # ------------------------------------------------------------------------------ shared steps
 
 _COMMON = ("solvent", "engine", "temperature", "pressure", "conformers", "rrho", "mix_enantiomers", "workers",
-           "force", "store", "profile")
+           "force", "thorough", "store", "profile")
 
 
 def _common(arguments: dict) -> dict:
@@ -176,6 +176,8 @@ def _run(task: str, smiles: Inputs, common: dict, **options: Any) -> Records:
     """Check the input as the command line does, compute, and return the records."""
     items = _items(smiles, task)
     options = {k: v for k, v in options.items() if v is not None}
+    if common.get("thorough") and task in ("ionize", "sites"):  # every site and shift product in full
+        options.update(site_window_kcal_mol=None, shift_window_kcal_mol=None)
     if options.get("refine") is True:
         from cationcalc.execution.refine import DEFAULT_LEVEL
 
@@ -235,9 +237,10 @@ def _settings(task: str, common: dict) -> Settings:
     if common["conformers"] is not None:
         conformers["max_conformers"] = _positive("conformers", common["conformers"])
     temperature = common["temperature"] if task != "rate" else _TEMPERATURE_K
-    return Settings(engine=common["engine"], solvent=solvent, temperature_k=temperature,
-                    pressure_pa=common["pressure"], conformers=ConformerSettings(**conformers),
-                    qrrho=not common["rrho"], enantiomer_mixing=bool(common["mix_enantiomers"]))
+    settings = Settings(engine=common["engine"], solvent=solvent, temperature_k=temperature,
+                        pressure_pa=common["pressure"], conformers=ConformerSettings(**conformers),
+                        qrrho=not common["rrho"], enantiomer_mixing=bool(common["mix_enantiomers"]))
+    return settings.full_protocol() if common.get("thorough") else settings
 
 
 def _check_options(task: str, settings: Settings, temperature: float, options: dict) -> None:
