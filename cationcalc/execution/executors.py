@@ -3,7 +3,11 @@
 Species are independent, so parallelism is over species.  Each worker
 process pins its numerical libraries to one thread (set in the package
 ``__init__`` before any engine is imported) and keeps one engine per
-settings for all its species.  A species that fails becomes a
+settings for all its species.  Once fewer species than workers remain,
+the idle cores are lent to the species still running: their numerical
+Hessians borrow them as threads (:mod:`cationcalc.execution.idle_cores`;
+never more busy threads than workers; the numbers do not change).  A serial
+run and Dask lend nothing.  A species that fails becomes a
 :class:`SpeciesFailure` carrying a one-line message; the others go on.
 
 With a :class:`~cationcalc.execution.store.ResultStore`, species already stored are
@@ -48,9 +52,11 @@ from cationcalc.engines import get_engine
 from cationcalc.engines.base import EngineError
 from pydantic import ValidationError
 
+from cationcalc.compute.cores import install_lender
 from cationcalc.compute.models import Settings, SpeciesResult, species_key
 from cationcalc.compute.pipeline import ComputationError, compute_species
 from cationcalc.chem.species import InputError, Species
+from cationcalc.execution.idle_cores import IdleCores
 
 if TYPE_CHECKING:  # pragma: no cover
     import distributed
@@ -247,14 +253,27 @@ def compute_many(species_list: Iterable[Species], settings: Settings, workers: i
     return {sp: results[sp] for sp in unique}
 
 
-def _compute_in_pool(todo, settings, workers, finished) -> None:
+def _compute_in_pool(todo, settings, workers, finished, idle: IdleCores | None = None) -> None:
+    """Every species on a pool of ``workers`` processes; a worker left without a species lends its core.
+
+    All species are queued at once, so once fewer species than workers remain,
+    each species that finishes leaves a core idle for good: it is added to the
+    pool's :class:`IdleCores`, from which the workers' numerical Hessians
+    borrow threads (never more than the idle cores).  ``idle``: a count of the
+    caller's (made from the spawn context), else a new one.
+    """
     context = multiprocessing.get_context("spawn")
-    pool = ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_die_with_parent,
-                               initargs=(os.getpid(),))
+    idle = idle if idle is not None else IdleCores(context)
+    pool = ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_start_worker,
+                               initargs=(os.getpid(), idle))
     futures = {pool.submit(compute_one, sp, settings): sp for sp in todo}
+    remaining = len(futures)
     try:
         for future in as_completed(futures):
             sp = futures[future]
+            remaining -= 1
+            if remaining < workers:
+                idle.freed(1)
             try:
                 result = future.result()
             except Exception as exc:  # a crashed worker fails its species only
@@ -268,6 +287,12 @@ def _compute_in_pool(todo, settings, workers, finished) -> None:
         raise
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _start_worker(parent_pid: int, idle: IdleCores) -> None:
+    """Pool-worker start-up: die with the parent; lend this worker's Hessians the pool's idle cores."""
+    _die_with_parent(parent_pid)
+    install_lender(idle)
 
 
 def _die_with_parent(parent_pid: int) -> None:
