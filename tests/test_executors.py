@@ -50,3 +50,24 @@ def test_a_serial_run_lends_nothing():
 
     compute_many([species("O")], Settings(), workers=1)
     assert installed_lender() is None
+
+
+def test_one_species_on_several_workers_lends_their_cores_in_this_process(monkeypatch):
+    from cationcalc.compute import hessian
+    from cationcalc.compute.cores import installed_lender
+
+    loans = []
+
+    def recording_borrow(wanted):
+        loans.append(hessian_borrow(wanted))
+        return loans[-1]
+
+    hessian_borrow = hessian.borrow_cores
+    monkeypatch.setattr(hessian, "borrow_cores", recording_borrow)
+    settings = Settings(conformers=ConformerSettings(max_conformers=2, n_optimize=1))
+    pentane = species("CCCCC")
+    lent = compute_many([pentane], settings, workers=2)[pentane]
+    assert sum(loans) >= 1 and installed_lender() is None
+    alone = compute_many([pentane], settings, workers=1)[pentane]
+    assert _without_profile(lent) == _without_profile(alone)
+    assert lent.profile.gradients == alone.profile.gradients

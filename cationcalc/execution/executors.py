@@ -6,8 +6,10 @@ process pins its numerical libraries to one thread (set in the package
 settings for all its species.  Once fewer species than workers remain,
 the idle cores are lent to the species still running: their numerical
 Hessians borrow them as threads (:mod:`cationcalc.execution.idle_cores`;
-never more busy threads than workers; the numbers do not change).  A serial
-run and Dask lend nothing.  A species that fails becomes a
+never more busy threads than workers; the numbers do not change), and a
+single species asked for with several workers runs in this process with
+their cores lent the same way.  A serial run (one worker) and Dask lend
+nothing.  A species that fails becomes a
 :class:`SpeciesFailure` carrying a one-line message; the others go on.
 
 With a :class:`~cationcalc.execution.store.ResultStore`, species already stored are
@@ -52,7 +54,7 @@ from cationcalc.engines import get_engine
 from cationcalc.engines.base import EngineError
 from pydantic import ValidationError
 
-from cationcalc.compute.cores import install_lender
+from cationcalc.compute.cores import install_lender, installed_lender
 from cationcalc.compute.models import Settings, SpeciesResult, species_key
 from cationcalc.compute.pipeline import ComputationError, compute_species
 from cationcalc.chem.species import InputError, Species
@@ -238,12 +240,13 @@ def compute_many(species_list: Iterable[Species], settings: Settings, workers: i
             elif todo:
                 n = max(1, min(int(workers), len(todo)))
                 if n == 1:
-                    for sp in todo:
-                        try:
-                            result = compute_one(sp, settings)
-                        except Exception as exc:  # as a pool worker's exception: this species fails alone
-                            result = _unexpected(sp, exc)
-                        finished(sp, result)
+                    with _lending_here(int(workers) - 1):  # one species, more workers: its Hessians use them
+                        for sp in todo:
+                            try:
+                                result = compute_one(sp, settings)
+                            except Exception as exc:  # as a pool worker's exception: this species fails alone
+                                result = _unexpected(sp, exc)
+                            finished(sp, result)
                 else:
                     _compute_in_pool(todo, settings, n, finished)
     except KeyboardInterrupt:
@@ -251,6 +254,22 @@ def compute_many(species_list: Iterable[Species], settings: Settings, workers: i
             results.setdefault(sp, SpeciesFailure("interrupted before this species finished"))
         raise Interrupted({sp: results[sp] for sp in unique}) from None
     return {sp: results[sp] for sp in unique}
+
+
+@contextlib.contextmanager
+def _lending_here(cores: int) -> Iterator[None]:
+    """Lend ``cores`` idle cores to the computation in this process (none: nothing installed, as serial)."""
+    if cores < 1:
+        yield
+        return
+    previous = installed_lender()
+    idle = IdleCores(multiprocessing.get_context("spawn"))
+    idle.freed(cores)
+    install_lender(idle)
+    try:
+        yield
+    finally:
+        install_lender(previous)
 
 
 def _compute_in_pool(todo, settings, workers, finished, idle: IdleCores | None = None) -> None:
