@@ -88,8 +88,8 @@ class Settings(BaseModel):
     fmax_ev_per_angstrom: float = Field(0.01, gt=0)
     max_steps: int = Field(500, ge=1)
     optimizer: Literal["LBFGS", "BFGS", "FIRE", "PreconLBFGS"] = Field(
-        "PreconLBFGS", description="ASE optimiser; PreconLBFGS needs about 30 % fewer gradients than LBFGS "
-                                   "(benchmarks/optimizers.py)")
+        "LBFGS", description="ASE optimiser; PreconLBFGS needs about 30 % fewer gradients (benchmarks/optimizers.py) "
+                             "but stays opt-in: it finds the neopentyl cation not a minimum where LBFGS keeps it")
     scf_max_iterations: int = Field(250, ge=1)
     conformers: ConformerSettings = ConformerSettings()
     hessian_step_angstrom: float = Field(0.005, gt=0)

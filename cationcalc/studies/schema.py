@@ -10,7 +10,7 @@ Example
 >>> from cationcalc.studies.schema import KNOWN_TASKS, workflow_model
 >>> wf = workflow_model().model_validate({"study": "s", "species": ["C[C+](C)C"], "tasks": ["hia", "shifts"]})
 >>> [name for name, _ in wf.tasks.selected()], wf.tasks.shifts.depth, wf.optimizer.algorithm
-(['hia', 'shifts'], 3, 'PreconLBFGS')
+(['hia', 'shifts'], 3, 'LBFGS')
 >>> "rate" in KNOWN_TASKS
 True
 """
