@@ -112,12 +112,13 @@ def funnel_sites(groups: list[list[Prepared]], settings: Settings, window_kcal_m
     """
     if window_kcal_mol is None:
         return groups
-    several = [g for g in groups if sum(p.error is None for p in g) > 1]
-    wanted = [sp for g in several for p in g if p.error is None for sp in _scoring_roles(p).values()]
+    several = [sum(p.error is None for p in g) > 1 for g in groups]
+    wanted = [sp for g, many in zip(groups, several) if many for p in g if p.error is None
+              for sp in _scoring_roles(p).values()]
     screened = _screen(list(dict.fromkeys(wanted)), settings, ctx)
     out = []
-    for group in groups:
-        if group not in several:
+    for group, many in zip(groups, several):
+        if not many:
             out.append(group)
             continue
         ranks = {}
@@ -128,7 +129,8 @@ def funnel_sites(groups: list[list[Prepared]], settings: Settings, window_kcal_m
                 ranks[i] = (tier(p, results), site_score({r: _kcal(res) for r, res in results.items()}))
         best_tier = min(t for t, _ in ranks.values()) if ranks else ()
         best = min((v for t, v in ranks.values() if t == best_tier), default=0.0)
-        keep = {i for i, (t, v) in ranks.items() if t == best_tier and v - best <= window_kcal_mol}
+        keep = set(inside_window({i: v for i, (t, v) in ranks.items() if t == best_tier}, window_kcal_mol)
+                   if ranks else [])
         out.append([p if i not in ranks
                     else _with_screening(p, ranks[i][1], ranks[i][1] - best) if i in keep
                     else _screened_out(p, ranks[i][1], ranks[i][1] - best, ranks[i][0] != best_tier, screened_record)
