@@ -274,6 +274,7 @@ def test_cli_benzyl_at_default_level_within_published_uncertainty(capsys):
     assert record["hia_kcal_mol"] == pytest.approx(240.8, abs=1.8 + 2.0)
 
 
+@pytest.mark.slow  # about 250 s on 2 cores: nine DFT single points on benzyl cations
 def test_sigma_plus_correlation_of_para_benzyl_cations_after_dft_refinement():
     # Brown–Okamoto σ⁺ (H. C. Brown, Y. Okamoto, J. Am. Chem. Soc. 80, 4979 (1958), values from memory, in
     # sigma_plus.csv) against gas-phase HIA of the para-substituted benzyl cations: r ≥ 0.95 with the
