@@ -635,10 +635,13 @@ def select_for_refinement(task: str, finished_groups: list[list[dict]], top_k: i
     return chosen
 
 
-def refine_note(level: Level, settings: Settings) -> str:
-    return (f"electronic energies from {level.name} single points (density fitting) on the GFN2-xTB geometries "
-            f"({settings.level}); ZPE, thermal corrections and entropies from the GFN2-xTB Hessian: the DFT//xTB "
-            f"composite {refined_level_name(level, settings.level, settings)}; solvation: "
+def refine_note(level: Level, settings: Settings, geometry: Level | None = None) -> str:
+    structures = (f"on {geometry.name} geometries (gas phase, started from the GFN2-xTB ones)" if geometry else
+                  f"on the GFN2-xTB geometries ({settings.level})")
+    composite = "DFT//DFT" if geometry else "DFT//xTB"
+    return (f"electronic energies from {level.name} single points (density fitting) {structures}; ZPE, thermal "
+            f"corrections and entropies from the GFN2-xTB Hessian ({settings.level}): the {composite} composite "
+            f"{refined_level_name(level, settings.level, settings, geometry)}; solvation: "
             f"{solvation_label(level, settings)}; GFN2-xTB values kept in the *_xtb_* keys")
 
 
@@ -651,17 +654,18 @@ def refine_task_records(task: str, groups: list, finished_groups: list[list[dict
     of each input and ``finished_groups`` their GFN2-xTB records, in the same
     order; ``results`` maps each species to its GFN2-xTB result.  Options:
     ``refine`` (level), ``refine_top_k``, ``refine_window_kcal_mol``,
+    ``refine_geometry`` (a gas-phase DFT level for the structures: DFT//DFT),
     ``refine_log`` (callable receiving the cost estimate lines).  The
     GFN2-xTB records are not changed.
     """
-    lvl = parse_level(options["refine"])
+    lvl, geo = parse_level(options["refine"]), parse_geometry_level(options.get("refine_geometry"))
     selected = select_for_refinement(task, finished_groups, options.get("refine_top_k"),
                                      options.get("refine_window_kcal_mol"))
     needed = list(dict.fromkeys(sp for g, i in sorted(selected) for sp in groups[g][i].needs.values()))
     refined = refine_many({sp: results[sp] for sp in needed}, lvl, settings, force=force,
-                          threads=max(1, int(workers or 1)), store=store, log=options.get("refine_log"))
+                          threads=max(1, int(workers or 1)), store=store, log=options.get("refine_log"), geometry=geo)
     return [[record if record.get("error") else
-             _refined_record(groups[g][i], record, refined, lvl, settings) if (g, i) in selected else
+             _refined_record(groups[g][i], record, refined, lvl, settings, geo) if (g, i) in selected else
              _unselected_record(record, lvl, settings)
              for i, record in enumerate(finished)] for g, finished in enumerate(finished_groups)]
 
@@ -677,14 +681,15 @@ def _unselected_record(record: Mapping, level: Level, settings: Settings) -> dic
     return rec
 
 
-def _refined_record(prepared, record: Mapping, refined: "_Refined", level: Level, settings: Settings) -> dict:
+def _refined_record(prepared, record: Mapping, refined: "_Refined", level: Level, settings: Settings,
+                    geometry: Level | None = None) -> dict:
     """The record of one request rebuilt from its refined species, or its failure (GFN2-xTB twins kept)."""
     from cationcalc.execution.executors import SpeciesFailure
 
     res = {role: refined[sp] for role, sp in prepared.needs.items()}
     failed = [f"{role} {sp.smiles}: {res[role].message}" for role, sp in prepared.needs.items()
               if isinstance(res[role], SpeciesFailure)]
-    note = refine_note(level, settings)
+    note = refine_note(level, settings, geometry)
     if failed:
         rec = {**prepared.base, "error": "; ".join(failed), "warnings": list(record.get("warnings", [])),
                "rearranged": record.get("rearranged", False)}
@@ -694,7 +699,7 @@ def _refined_record(prepared, record: Mapping, refined: "_Refined", level: Level
         return rec
     rec = merge_records(prepared.finish(res), record)
     infos = [refined.info[sp] for sp in dict.fromkeys(prepared.needs.values()) if sp in refined.info]
-    rec.update({"level": refined_level_name(level, settings.level, settings), "xtb_level": settings.level,
+    rec.update({"level": refined_level_name(level, settings.level, settings, geometry), "xtb_level": settings.level,
                 "refine_level": level.name, "refine_solvation": solvation_label(level, settings),
                 "refine_note": note, "refine_seconds": round(sum(x.seconds for x in infos), 2)})
     return rec
