@@ -339,11 +339,17 @@ def test_dft_geometry_lowers_the_energy_at_its_own_level_and_is_labelled():
     assert (on_dft.H_hartree - on_dft.E_hartree) == pytest.approx(result.H_hartree - result.E_hartree, abs=1e-12)
 
 
-def test_refine_geometry_prints_its_cost_first_and_needs_refine(capsys):
+def test_refine_geometry_needs_refine(capsys):
     from cationcalc.cli.main import main
 
     assert main(["hia", "[CH3+]", "--refine-geometry"]) != 0
     assert "--refine-geometry needs --refine" in capsys.readouterr().err
+
+
+@pytest.mark.slow  # DFT optimisations of methyl, methane, tert-butyl and isobutane (the anchor pair)
+def test_refine_geometry_prints_its_cost_first(capsys):
+    from cationcalc.cli.main import main
+
     assert main(["hia", "[CH3+]", "--refine=B3LYP-D3BJ/def2-SVP", "--refine-geometry", "--json",
                  "--workers", "1"]) == 0
     out = capsys.readouterr()
