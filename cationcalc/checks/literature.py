@@ -12,7 +12,9 @@ result store (``<output>/store.sqlite``) so a re-run is instant.
 * **gas-phase HIA**: n, MAE, RMSE, max error and mean signed error of the raw
   values, and the same after a linear calibration judged by leave-one-out
   (LOO), per-class residuals;
-* **σ⁺ series** (gas phase): slope in kcal/mol per σ⁺ unit, ρ⁺ = −slope/(2.303RT), r and Spearman ρ;
+* **σ⁺ series**: slope in kcal/mol per σ⁺ unit, ρ⁺ = −slope/(2.303RT), r and Spearman ρ; in ALPB(acetone),
+  the protocol's stand-in for the 90 % aqueous acetone of the σ⁺ definition (best r of gas, acetone and
+  water, see ``reference_sets.SIGMA_PLUS_MEDIUM``), and in the run's medium (gas by default);
 * **Mayr E** (dichloromethane): HIA of the benzhydrylium ions against E;
 * **pKR⁺** (water): ΔG of R⁺ + OH⁻ → ROH in ALPB(water) against pKR⁺.
   pKR⁺ = ΔG(R⁺ + H₂O → ROH + H⁺)/(2.303RT); the hydroxide form differs from
@@ -27,7 +29,7 @@ Example
 -------
 >>> from cationcalc.checks.literature import reference_sets
 >>> sorted(reference_sets())
-['gas_hia', 'mayr_E', 'pkr', 'sigma_benzyl', 'sigma_cumyl']
+['gas_hia', 'mayr_E', 'pkr', 'sigma_benzyl', 'sigma_benzyl_solution', 'sigma_cumyl', 'sigma_cumyl_solution']
 """
 
 from __future__ import annotations

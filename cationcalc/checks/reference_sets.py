@@ -1,8 +1,12 @@
 """The bundled reference sets of ``cationcalc check``: which published rows enter which set, and why.
 
 * **gas-phase HIA** (absolute set, kcal/mol; ``data/gas_hydride_ion_affinities.csv``);
-* **σ⁺ series** (correlation sets, gas phase): HIA of para-substituted benzyl
-  and cumyl cations against Brown–Okamoto σ⁺ (``data/sigma_plus.csv``);
+* **σ⁺ series** (correlation sets): HIA of para-substituted benzyl and cumyl
+  cations against Brown–Okamoto σ⁺ (``data/sigma_plus.csv``), in the medium of
+  the protocol (:data:`SIGMA_PLUS_MEDIUM`, ALPB(acetone), standing for the 90 %
+  aqueous acetone in which σ⁺ was defined: ``sigma_benzyl_solution``,
+  ``sigma_cumyl_solution``) and in the medium of the run (gas by default:
+  ``sigma_benzyl``, ``sigma_cumyl``);
 * **Mayr E** (correlation set, dichloromethane): HIA of the benzhydrylium
   ions in ALPB(dichloromethane) against their electrophilicity E
   (``data/mayr_electrophilicity.csv``);
@@ -22,6 +26,8 @@ Example
 ['1-propyl (threshold ion)', 'isobutyl (threshold ion)']
 >>> sets["sigma_benzyl"].expected_sign
 1
+>>> sets["sigma_benzyl_solution"].medium, sets["sigma_benzyl"].medium
+('acetone', 'run')
 """
 
 from __future__ import annotations
@@ -142,7 +148,25 @@ def alcohol_smiles(cation_smiles: str) -> str:
     return Chem.MolToSmiles(out)
 
 
-def _sigma_sets() -> tuple[ReferenceSet, ReferenceSet]:
+#: The medium of the σ⁺ protocol sets.  σ⁺ was defined by the solvolysis of cumyl chlorides in 90 % aqueous
+#: acetone (Brown–Okamoto 1958); ALPB has no parameters for the mixture, and ALPB(acetone) stands for it (the
+#: mixture is 90 % acetone by volume and its dielectric constant, about 24, is near acetone's 20.7, far from
+#: water's 78.4).  Measured with GFN2-xTB, default settings (benchmarks/sigma_plus_media.py, 9 para substituents):
+#: r against σ⁺ gas / ALPB(acetone) / ALPB(water) = 0.947 / 0.953 / 0.953 for the benzyl cations and
+#: 0.954 / 0.957 / 0.953 for the cumyl cations; acetone gives the best r of both series and, with water, a ρ⁺
+#: nearer the solvolysis value than the gas phase.  4-F comes out destabilizing (HIA above the parent's) in every
+#: medium: a GFN2-xTB error the medium does not repair.
+SIGMA_PLUS_MEDIUM = "acetone"
+
+
+def _sigma_sets() -> tuple[ReferenceSet, ...]:
+    """σ⁺ against HIA: benzyl and cumyl cations in the protocol's medium, then in the medium of the run.
+
+    The protocol sets (``*_solution``) are computed in :data:`SIGMA_PLUS_MEDIUM`
+    whatever the run's solvent, as the Mayr and pKR⁺ sets are computed in
+    the media of their measurements; the run-medium sets keep the gas-phase
+    figure of a default run beside them.
+    """
     rows = load_table("sigma_plus")
     benzyl = tuple(Entry(f"{r['substituent']}-benzyl", r["benzyl_cation_smiles"], float(r["sigma_plus"]), r["source"],
                          r["status"]) for r in rows)
@@ -151,13 +175,22 @@ def _sigma_sets() -> tuple[ReferenceSet, ReferenceSet]:
                   for r in rows)
     note = ("slope in kcal/mol per σ⁺ unit; ρ⁺ = −slope/(2.303RT) on the log K scale of R–H + R0⁺ ⇌ R⁺ + R0–H "
             "(negative: donors stabilise the cation)")
-    s1 = ReferenceSet("sigma_benzyl", "σ⁺ vs gas HIA, para-substituted benzyl cations", "correlation", "run",
-                      "σ⁺ (Brown–Okamoto)", "HIA_calc / kcal/mol", 1, benzyl,
-                      tuple(e.name for e in benzyl), note=note)
-    s2 = ReferenceSet("sigma_cumyl", "σ⁺ vs gas HIA, para-substituted cumyl cations", "correlation", "run",
-                      "σ⁺ (Brown–Okamoto)", "HIA_calc / kcal/mol", 1, cumyl,
-                      (), note=note)
-    return s1, s2
+    solution_note = (f"{note}; ALPB({SIGMA_PLUS_MEDIUM}) stands for the 90 % aqueous acetone of the σ⁺ definition "
+                     "(the protocol's medium: best r of gas, acetone and water, benchmarks/sigma_plus_media.py)")
+    medium = f"ALPB({SIGMA_PLUS_MEDIUM})"
+    return (
+        ReferenceSet("sigma_benzyl_solution", f"σ⁺ vs HIA in {medium}, para-substituted benzyl cations",
+                     "correlation", SIGMA_PLUS_MEDIUM, "σ⁺ (Brown–Okamoto)", f"HIA_calc({medium}) / kcal/mol", 1,
+                     benzyl, tuple(e.name for e in benzyl), note=solution_note),
+        ReferenceSet("sigma_cumyl_solution", f"σ⁺ vs HIA in {medium}, para-substituted cumyl cations",
+                     "correlation", SIGMA_PLUS_MEDIUM, "σ⁺ (Brown–Okamoto)", f"HIA_calc({medium}) / kcal/mol", 1,
+                     cumyl, tuple(e.name for e in cumyl), note=solution_note),
+        ReferenceSet("sigma_benzyl", "σ⁺ vs gas HIA, para-substituted benzyl cations", "correlation", "run",
+                     "σ⁺ (Brown–Okamoto)", "HIA_calc / kcal/mol", 1, benzyl,
+                     tuple(e.name for e in benzyl), note=note),
+        ReferenceSet("sigma_cumyl", "σ⁺ vs gas HIA, para-substituted cumyl cations", "correlation", "run",
+                     "σ⁺ (Brown–Okamoto)", "HIA_calc / kcal/mol", 1, cumyl,
+                     (), note=note))
 
 
 def _mayr_set() -> ReferenceSet:
@@ -205,9 +238,7 @@ def _pkr_set() -> ReferenceSet:
 
 def reference_sets() -> dict[str, ReferenceSet]:
     """All bundled reference sets by key, in report order."""
-    gas = _gas_hia_set()
-    benzyl, cumyl = _sigma_sets()
-    return {s.key: s for s in (gas, benzyl, cumyl, _mayr_set(), _pkr_set())}
+    return {s.key: s for s in (_gas_hia_set(), *_sigma_sets(), _mayr_set(), _pkr_set())}
 
 
 #: species the trend checks need beyond the sets (name → cation SMILES)
@@ -225,5 +256,5 @@ ISOMERS = {
 
 
 
-__all__ = ["Entry", "ReferenceSet", "reference_sets", "cumyl_smiles", "alcohol_smiles", "TREND_CATIONS", "ISOMERS",
+__all__ = ["Entry", "ReferenceSet", "reference_sets", "SIGMA_PLUS_MEDIUM", "cumyl_smiles", "alcohol_smiles", "TREND_CATIONS", "ISOMERS",
            "ANCHOR_SMILES", "KEISTER_1993", "HOULE_1979", "TORMA_2019", "LIAS_1988", "BROWN_OKAMOTO"]

@@ -3,7 +3,7 @@
 Hyperconjugation along methyl > ethyl > 2-propyl > tert-butyl, resonance
 against the same substitution, benzyl against tert-butyl and 2-propyl,
 aromatic stabilization among isomers, σ cations, the vinylic 2-propenyl
-cation, and the σ⁺ series.  A check is ``None`` (n/a) when a number it needs
+cation, and the σ⁺ series (in the protocol's medium and in the run's).  A check is ``None`` (n/a) when a number it needs
 was not computed.
 
 Example
@@ -16,7 +16,7 @@ Example
 from __future__ import annotations
 
 from cationcalc.checks.reference_sets import (BROWN_OKAMOTO, HOULE_1979, ISOMERS, KEISTER_1993, LIAS_1988,
-                                              TORMA_2019, TREND_CATIONS)
+                                              SIGMA_PLUS_MEDIUM, TORMA_2019, TREND_CATIONS)
 from cationcalc.chem.species import carbocation
 
 
@@ -139,15 +139,18 @@ def _unsaturated_cation_trends(h: dict[str, float | None], gas_table: dict[str, 
 
 
 def _sigma_plus_trends(correlations: dict[str, dict]) -> list[dict]:
-    """The σ⁺ series: HIA rises with σ⁺ with r ≥ 0.95, for each evaluated series."""
+    """The σ⁺ series: HIA rises with σ⁺ with r ≥ 0.95, for each evaluated series (protocol medium, then the run's)."""
     out = []
-    for key, label in (("sigma_benzyl", "benzyl"), ("sigma_cumyl", "cumyl")):
+    solution = f"ALPB({SIGMA_PLUS_MEDIUM})"
+    for key, label in (("sigma_benzyl_solution", f"para-benzyl, {solution}"),
+                       ("sigma_cumyl_solution", f"para-cumyl, {solution}"),
+                       ("sigma_benzyl", "para-benzyl"), ("sigma_cumyl", "para-cumyl")):
         c = correlations.get(key)
         if c is None:
             continue
         ok = None if c.get("r") is None else bool(c["sign_ok"] and c["r"] >= 0.95)
         out.append(_trend(
-            f"σ⁺ series: para-{label}", "HIA rises with σ⁺ (slope > 0, ρ⁺ < 0), r ≥ 0.95",
+            f"σ⁺ series: {label}", "HIA rises with σ⁺ (slope > 0, ρ⁺ < 0), r ≥ 0.95",
             (f"n {c['n']}, slope {_fmt(c['slope'])} kcal/mol/σ⁺, ρ⁺ {_fmt(c.get('rho_plus'))}, r {_fmt(c['r'], 3)}"
              if c.get("r") is not None else "n/a"),
             "σ⁺ constants", BROWN_OKAMOTO, ok))

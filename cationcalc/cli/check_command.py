@@ -18,7 +18,8 @@ def build_parser() -> argparse.ArgumentParser:
                                 "(gas-phase HIA, σ⁺, Mayr E, pKR⁺) and trend checks; print statistics and write plots.")
     p.add_argument("--quick", action="store_true", help="a small subset of cheap species (a re-run reads the store)")
     p.add_argument("--solvent", default="none", help="medium of the HIA sets and trends (default gas); the Mayr set "
-                   "is always in dichloromethane and the pKR+ set in water, as measured")
+                   "is always in dichloromethane and the pKR+ set in water, as measured, and the σ+ protocol sets "
+                   "(*_solution) in acetone, standing for the 90%% aqueous acetone of the σ+ definition")
     p.add_argument("--engine", default="tblite", choices=["tblite", "xtb"], help="GFN2-xTB implementation")
     p.add_argument("--workers", type=positive_int_arg, default=None, help="processes, 1 or more (default: one per core)")
     p.add_argument("--output", default="cationcalc-check", help="folder for the report, plots and result store")
