@@ -35,6 +35,8 @@ Results (resumable: finished single points are kept) go to
 from __future__ import annotations
 
 import argparse
+import contextlib
+import fcntl
 import json
 import os
 import platform
@@ -52,7 +54,8 @@ from cationcalc.execution.executors import SpeciesFailure, compute_many  # noqa:
 from cationcalc.compute.models import Settings  # noqa: E402
 from cationcalc.compute.properties import hydride_ion_affinity  # noqa: E402
 from cationcalc.chem.reference import hia_reference, load_table  # noqa: E402
-from cationcalc.execution.refine import offered_levels, parse_level, refine_species  # noqa: E402
+from cationcalc.execution.refine import (offered_levels, parse_geometry_level, parse_level,  # noqa: E402
+                                         refine_species)
 from cationcalc.chem.species import Species, carbocation, hydride_adduct  # noqa: E402
 
 EXCLUDED_NAMES = {"ethyl": "bridged ion; the 1979 value is 3–4 kcal/mol above later evaluations (table note)"}
@@ -74,6 +77,20 @@ def comparable_rows() -> tuple[list[dict], list[tuple[str, str]]]:
         else:
             keep.append(row)
     return keep, left_out
+
+
+@contextlib.contextmanager
+def held(lock_path: str | None):
+    """An exclusive lock on ``lock_path`` for the duration (nothing without a path)."""
+    if lock_path is None:
+        yield
+        return
+    with open(lock_path, "a") as handle:
+        fcntl.flock(handle, fcntl.LOCK_EX)
+        try:
+            yield
+        finally:
+            fcntl.flock(handle, fcntl.LOCK_UN)
 
 
 def thermal_content_kcal_mol(result) -> float:
@@ -102,6 +119,11 @@ def main(argv=None) -> int:
     parser.add_argument("--workers", type=int, default=1, help="processes for the GFN2-xTB species")
     parser.add_argument("--store", default="/tmp/cc_refine/store.sqlite", help="result store for GFN2-xTB species")
     parser.add_argument("--output", default=str(HERE / "results" / "dft_levels"), help="output path without suffix")
+    parser.add_argument("--geometry", default=None,
+                        help="also a DFT//DFT column per level: structures optimised at this level (e.g. "
+                             "B3LYP-D3BJ/def2-SVP) before the single point")
+    parser.add_argument("--lock", default=None,
+                        help="hold this lock file around each DFT species only (lets other heavy jobs interleave)")
     args = parser.parse_args(argv)
 
     from pyscf import lib
@@ -127,7 +149,8 @@ def main(argv=None) -> int:
 
     store = ResultStore(args.store)
     t0 = time.perf_counter()
-    xtb = compute_many(species, settings, workers=args.workers, store=store)
+    with held(args.lock):
+        xtb = compute_many(species, settings, workers=args.workers, store=store)
     print(f"GFN2-xTB: {len(species)} species in {time.perf_counter() - t0:.0f} s "
           f"(store hits {store.hits})", file=sys.stderr, flush=True)
     failed = {sp.smiles: r.message for sp, r in xtb.items() if isinstance(r, SpeciesFailure)}
@@ -169,8 +192,10 @@ def main(argv=None) -> int:
     cost["GFN2-xTB calibrated"] = {"s_per_species": cost["GFN2-xTB raw"]["s_per_species"], "note": cal_note}
 
     levels = [parse_level(x.strip()) for x in args.levels.split(",") if x.strip()]
-    for lvl in levels:
-        done = saved["single_points"].setdefault(lvl.name, {})
+    geometry = parse_geometry_level(args.geometry) if args.geometry else None
+    for lvl, geo in [(lvl, None) for lvl in levels] + ([(lvl, geometry) for lvl in levels] if geometry else []):
+        column = lvl.name if geo is None else f"{lvl.name}//{geo.name}"
+        done = saved["single_points"].setdefault(column, {})
         refined = {}
         for sp in species:
             r = xtb[sp]
@@ -182,20 +207,22 @@ def main(argv=None) -> int:
                 refined[sp] = r.model_copy(update={"E_hartree": r.E_hartree + shift, "H_hartree": r.H_hartree + shift,
                                                    "G_hartree": r.G_hartree + shift})
                 continue
-            with lib.with_omp_threads(args.threads):
-                new, info = refine_species(r, lvl, settings, threads=args.threads, force=True)
+            with held(args.lock), lib.with_omp_threads(args.threads):
+                new, info = refine_species(r, lvl, settings, threads=args.threads, force=True, geometry=geo)
             refined[sp] = new
             done[key] = {"shift_hartree": info.shift_hartree, "E_dft_hartree": info.E_dft_hartree,
                          "seconds": info.seconds, "n_basis": info.n_basis, "atoms": len(r.numbers),
-                         "scf_route": info.scf_route, "estimate_s": info.estimate.seconds}
-            print(f"{lvl.name}: {sp.smiles} {info.n_basis} bf {info.seconds:.1f} s", file=sys.stderr, flush=True)
+                         "scf_route": info.scf_route, "estimate_s": info.estimate.seconds,
+                         "dft_gradients": new.profile.gradients.get("dft_gradient", 0), "warnings": [
+                             w for w in new.warnings if w not in r.warnings]}
+            print(f"{column}: {sp.smiles} {info.n_basis} bf {info.seconds:.1f} s", file=sys.stderr, flush=True)
             out_json.write_text(json.dumps(saved, indent=1))
-        columns[lvl.name] = hia_table(refined)
+        columns[column] = hia_table(refined)
         secs = [v["seconds"] for v in done.values()]
         nbf = [v["n_basis"] for v in done.values()]
         fit = np.polyfit(np.log(np.asarray(nbf) / 100.0), np.log(secs), 1) if len(secs) > 2 else (None, None)
         largest = max(done.values(), key=lambda v: v["atoms"])
-        cost[lvl.name] = {"s_per_species": float(np.mean(secs)), "s_largest": largest["seconds"],
+        cost[column] = {"s_per_species": float(np.mean(secs)), "s_largest": largest["seconds"],
                           "atoms_largest": largest["atoms"], "n_basis_largest": largest["n_basis"],
                           "fit_exponent": float(fit[0]) if fit[0] is not None else None,
                           "fit_seconds_at_100": float(np.exp(fit[1])) if fit[1] is not None else None}

@@ -78,55 +78,55 @@ class Records(list):
 
 
 def hia(smiles: Inputs, *, solvent: str | None = None, reference: str = DEFAULT_HIA_REFERENCE,
-        calibrated: bool = False, refine: str | bool | None = None, engine: str = _ENGINE,
+        calibrated: bool = False, refine: str | bool | None = None, refine_geometry: str | bool | None = None, engine: str = _ENGINE,
         temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
         rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
         store: StoreLike = None, profile: bool = False) -> Records:
     """Hydride-ion affinities of carbocations (``cationcalc hia``), anchored on ``reference``."""
-    return _run("hia", smiles, _common(locals()), reference=reference, calibrated=calibrated, refine=refine)
+    return _run("hia", smiles, _common(locals()), reference=reference, calibrated=calibrated, refine=refine, refine_geometry=refine_geometry)
 
 
-def heterolysis(smiles: Inputs, *, solvent: str | None = None, refine: str | bool | None = None,
+def heterolysis(smiles: Inputs, *, solvent: str | None = None, refine: str | bool | None = None, refine_geometry: str | bool | None = None,
                 engine: str = _ENGINE, temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA,
                 conformers: int | None = None, rrho: bool = False, mix_enantiomers: bool = False,
                 workers: int | None = None, force: bool = False, thorough: bool = False, store: StoreLike = None,
                 profile: bool = False) -> Records:
     """R–X → R⁺ + X⁻ energies (``cationcalc heterolysis``)."""
-    return _run("heterolysis", smiles, _common(locals()), refine=refine)
+    return _run("heterolysis", smiles, _common(locals()), refine=refine, refine_geometry=refine_geometry)
 
 
-def thermo(smiles: Inputs, *, solvent: str | None = None, refine: str | bool | None = None, engine: str = _ENGINE,
+def thermo(smiles: Inputs, *, solvent: str | None = None, refine: str | bool | None = None, refine_geometry: str | bool | None = None, engine: str = _ENGINE,
            temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
            rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
            store: StoreLike = None, profile: bool = False) -> Records:
     """Energy, ZPE, H, S, G, symmetry and frequencies of any species (``cationcalc thermo``)."""
-    return _run("thermo", smiles, _common(locals()), refine=refine)
+    return _run("thermo", smiles, _common(locals()), refine=refine, refine_geometry=refine_geometry)
 
 
 def ionize(smiles: Inputs, *, solvent: str | None = None, leaving_group: str = "auto", acid: bool = False,
            reference: str | None = None, shifts: bool = True, medium: str | None = None,
-           refine: str | bool | None = None, engine: str = _ENGINE, temperature: float = _TEMPERATURE_K,
+           refine: str | bool | None = None, refine_geometry: str | bool | None = None, engine: str = _ENGINE, temperature: float = _TEMPERATURE_K,
            pressure: float = _PRESSURE_PA, conformers: int | None = None, rrho: bool = False,
            mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
            store: StoreLike = None, profile: bool = False) -> Records:
     """ΔG of R–X → R⁺ + X with a verdict (``cationcalc ionize``); ``reference`` is the substrate SMILES
     ΔΔG_ion is measured against, ``shifts=False`` is ``--no-shifts``, ``medium`` adds half-lives."""
     return _run("ionize", smiles, _common(locals()), leaving_group=leaving_group, acid=acid,
-                reference_substrate=reference, shifts=shifts, medium=medium, refine=refine)
+                reference_substrate=reference, shifts=shifts, medium=medium, refine=refine, refine_geometry=refine_geometry)
 
 
 def sites(smiles: Inputs, *, solvent: str | None = None, acid: bool = False, hydride: bool = False,
-          shifts: bool = True, calibrated: bool = False, refine: str | bool | None = None, engine: str = _ENGINE,
+          shifts: bool = True, calibrated: bool = False, refine: str | bool | None = None, refine_geometry: str | bool | None = None, engine: str = _ENGINE,
           temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
           rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
           store: StoreLike = None, profile: bool = False) -> Records:
     """Every ionization site of a substrate, ranked (``cationcalc sites``); ``hydride`` scans every C–H."""
     return _run("sites", smiles, _common(locals()), acid=acid, hydride=hydride, shifts=shifts,
-                calibrated=calibrated, refine=refine)
+                calibrated=calibrated, refine=refine, refine_geometry=refine_geometry)
 
 
 def ladder(smiles: Inputs, *, solvent: str | None = None, groups: str | Iterable[str] | None = None,
-           medium: str | None = None, refine: str | bool | None = None, engine: str = _ENGINE,
+           medium: str | None = None, refine: str | bool | None = None, refine_geometry: str | bool | None = None, engine: str = _ENGINE,
            temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
            rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
            store: StoreLike = None, profile: bool = False) -> Records:
@@ -135,7 +135,7 @@ def ladder(smiles: Inputs, *, solvent: str | None = None, groups: str | Iterable
     if isinstance(groups, str):
         groups = groups.split(",")
     chosen = [g.strip() for g in groups if g.strip()] if groups is not None else None
-    return _run("ladder", smiles, _common(locals()), groups=chosen or None, medium=medium, refine=refine)
+    return _run("ladder", smiles, _common(locals()), groups=chosen or None, medium=medium, refine=refine, refine_geometry=refine_geometry)
 
 
 def shifts(smiles: Inputs, *, solvent: str | None = None, depth: int | None = None,
@@ -263,11 +263,14 @@ def _check_options(task: str, settings: Settings, temperature: float, options: d
         leaving_group(options["leaving_group"])
     for name in options.get("groups") or []:
         leaving_group(name)
+    if options.get("refine_geometry") and not options.get("refine"):
+        raise ValueError("refine_geometry needs refine: give refine=True or refine='LEVEL'")
     if options.get("refine"):
         from cationcalc.engines.pyscf_engine import require_pyscf
-        from cationcalc.execution.refine import parse_level
+        from cationcalc.execution.refine import parse_geometry_level, parse_level
 
         parse_level(options["refine"])
+        parse_geometry_level(options.get("refine_geometry"))
         require_pyscf()
     if settings.engine == "xtb":
         _check_xtb(settings)

@@ -29,7 +29,7 @@ from cationcalc.checks.reference_sets import Entry, ReferenceSet
 from cationcalc.chem import units
 from cationcalc.chem.species import carbocation
 from cationcalc.compute.models import Settings
-from cationcalc.trust.calibration import (CLASS_GROUPS, Calibration, calibration_for, cation_group, error_statistics, fit_linear,
+from cationcalc.trust.calibration import (CLASS_GROUPS, Calibration, calibration_for, cation_group, error_statistics, fit_linear, loo_class_predictions,
                                           loo_predictions)
 
 def absolute_statistics(calc: Sequence[float], exp: Sequence[float]) -> dict:
@@ -97,6 +97,10 @@ def evaluate_absolute(rs: ReferenceSet, entries: Sequence[Entry], hia: dict[str,
             r["loo_residual"] = float(p - r["exp"])
         out["fit"] = {"a": fit.a, "b": fit.b, "n": fit.n}
         out["loo"] = error_statistics(loo - exp)
+        by_class = loo_class_predictions(calc, exp, [r["class_group"] for r in used])
+        for r, p in zip(used, by_class):
+            r["class_loo_residual"] = float(p - r["exp"])
+        out["class_loo"] = error_statistics(by_class - exp)
         groups = {}
         for g in CLASS_GROUPS:
             members = [r for r in used if r["class_group"] == g]
@@ -109,7 +113,8 @@ def evaluate_absolute(rs: ReferenceSet, entries: Sequence[Entry], hia: dict[str,
     if stored is not None and used:
         out["stored_calibration"] = {"id": stored.id, "a": stored.a, "b": stored.b, "n": stored.n,
                                      "loo_mae": stored.loo_mae_kcal_mol, "loo_rmse": stored.loo_rmse_kcal_mol,
-                                     "applied": absolute_statistics([stored.apply(c) for c in calc], exp)}
+                                     "applied": absolute_statistics([stored.apply(r["calc"], r["class_group"]) for r in used], exp),
+                                     "by_class": stored.by_class}
     out["worst"] = sorted(used, key=lambda r: -abs(r["residual"]))[:5]
     return out
 

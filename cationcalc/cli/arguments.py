@@ -127,6 +127,8 @@ def split_refine(argv: list[str]) -> list[str]:
     for token in argv:
         if token.startswith("--refine="):
             out += ["--refine-level", token.split("=", 1)[1]]
+        elif token.startswith("--refine-geometry="):
+            out += ["--refine-geometry-level", token.split("=", 1)[1]]
         else:
             out.append(token)
     return out

@@ -96,7 +96,7 @@ def _common(p, calibrated: bool = False) -> None:
     """The options every task command with level options takes: inputs, level, output, store, DFT refinement."""
     from cationcalc.cli.arguments import positive_int_arg, pressure_arg, temperature_arg
     from cationcalc.compute.models import PRESSURE_RANGE_PA, TEMPERATURE_RANGE_K
-    from cationcalc.execution.refine import DEFAULT_LEVEL
+    from cationcalc.execution.refine import DEFAULT_GEOMETRY_LEVEL, DEFAULT_LEVEL
 
     p.add_argument("smiles", nargs="*", help="SMILES inputs")
     p.add_argument("-i", "--input", help="file with one SMILES per line (optional name after it); - for stdin")
@@ -126,6 +126,11 @@ def _common(p, calibrated: bool = False) -> None:
                         "the basis solvates the DFT itself); GFN2-xTB values kept as *_xtb_* "
                         "(pip install 'cationcalc[dft]')")
     p.add_argument("--refine-level", dest="refine", default=None, metavar="LEVEL", help=argparse.SUPPRESS)
+    p.add_argument("--refine-geometry", action="store_const", const=DEFAULT_GEOMETRY_LEVEL, default=None,
+                   help=f"with --refine: optimise each structure at {DEFAULT_GEOMETRY_LEVEL} first (DFT//DFT; "
+                        "another level with --refine-geometry=LEVEL); the cost is printed before the run")
+    p.add_argument("--refine-geometry-level", dest="refine_geometry", default=None, metavar="LEVEL",
+                   help=argparse.SUPPRESS)
 
 
 def _output_options(p, wide_help: str) -> None:
@@ -274,6 +279,8 @@ def _check(args, task) -> str | None:
     try:
         normalise_solvent(args.solvent)
         _check_task_options(args, task)
+        if getattr(args, "refine_geometry", None) and not args.refine:
+            return "--refine-geometry needs --refine: add --refine (or --refine=LEVEL)"
         if args.refine:
             return _check_refine(args, task)
     except ValueError as exc:
@@ -318,6 +325,10 @@ def _check_refine(args, task) -> str | None:
         return (f"--refine is not available for {task.name} yet; refine the cations with "
                 "cationcalc hia/ionize --refine")
     parse_level(args.refine)
+    if getattr(args, "refine_geometry", None):
+        from cationcalc.execution.refine import parse_geometry_level
+
+        parse_geometry_level(args.refine_geometry)
     from cationcalc.engines.pyscf_engine import DFTUnavailable, require_pyscf
 
     try:
@@ -445,6 +456,8 @@ def _run(args, items, settings, workers, progress, store) -> list[dict]:
         options["plan_log"] = lambda line: print(("\n" if progress else "") + line, file=sys.stderr, flush=True)
     if getattr(args, "refine", None):
         options["refine"] = args.refine
+        if getattr(args, "refine_geometry", None):
+            options["refine_geometry"] = args.refine_geometry
         options["refine_log"] = lambda line: print(line, file=sys.stderr, flush=True)
     return run_task(task.name, items, settings, calibrated=getattr(args, "calibrated", False), **common, **options)
 

@@ -44,6 +44,8 @@ from cationcalc.engines.base import EngineError
 if TYPE_CHECKING:  # pragma: no cover
     import pyscf.gto
 
+    from cationcalc.engines.base import EngineResult
+
 INSTALL_HINT = "pip install 'cationcalc[dft]'"
 
 #: solvent models PySCF computes here
@@ -201,6 +203,37 @@ def dft_single_point(numbers: Sequence[int], positions_angstrom: ArrayLike, *, c
     adds implicit solvation in PySCF; ``solvent_model=None`` is gas phase.
     ``threads`` overrides PySCF's OpenMP thread count for this call only.
     """
+    return _converged_dft(numbers, positions_angstrom, charge=charge, multiplicity=multiplicity, xc=xc, basis=basis,
+                          grid_level=grid_level, solvent=solvent, solvent_model=solvent_model, max_cycle=max_cycle,
+                          newton_max_cycle=newton_max_cycle, conv_tol=conv_tol, threads=threads,
+                          max_memory_mb=max_memory_mb, what=what)[0]
+
+
+def dft_energy_and_gradient(numbers: Sequence[int], positions_angstrom: ArrayLike, *, charge: int, multiplicity: int,
+                            xc: str, basis: str, grid_level: int = 3, threads: int | None = None,
+                            max_memory_mb: float | None = None, density_guess: np.ndarray | None = None,
+                            what: str = "this species") -> tuple[DFTResult, np.ndarray, np.ndarray]:
+    """Gas-phase energy, analytic nuclear gradient (Hartree/Bohr, dispersion included) and the converged
+    density matrix (a guess for the next, nearby geometry) of one structure."""
+    from pyscf import lib
+
+    result, final = _converged_dft(numbers, positions_angstrom, charge=charge, multiplicity=multiplicity, xc=xc,
+                                   basis=basis, grid_level=grid_level, threads=threads, max_memory_mb=max_memory_mb,
+                                   density_guess=density_guess, what=what)
+    context = lib.with_omp_threads(int(threads)) if threads else _nullcontext()
+    with context:
+        gradient = np.asarray(final.nuc_grad_method().kernel(), dtype=float)
+    if not np.all(np.isfinite(gradient)):
+        raise EngineError(f"{what}: PySCF returned a non-finite gradient")
+    return result, gradient, np.asarray(final.make_rdm1())
+
+
+def _converged_dft(numbers: Sequence[int], positions_angstrom: ArrayLike, *, charge: int, multiplicity: int, xc: str,
+                   basis: str, grid_level: int = 3, solvent: str | None = None, solvent_model: str | None = None,
+                   max_cycle: int = 100, newton_max_cycle: int = 50, conv_tol: float = 1e-9,
+                   threads: int | None = None, max_memory_mb: float | None = None,
+                   density_guess: np.ndarray | None = None, what: str = "this species"):
+    """The :class:`DFTResult` and the converged PySCF SCF object of one structure."""
     require_pyscf()
     from pyscf import lib
 
@@ -216,6 +249,9 @@ def dft_single_point(numbers: Sequence[int], positions_angstrom: ArrayLike, *, c
         cycles["n"] += 1
 
     mf.callback = count
+    if density_guess is not None:
+        mf.init_guess = "_given"
+        mf.get_init_guess = lambda *args, **kwargs: density_guess
     context = lib.with_omp_threads(int(threads)) if threads else _nullcontext()
     with context:
         energy, final, route = _converged_scf(mf, count, xc=xc, basis=basis, max_cycle=max_cycle,
@@ -225,10 +261,55 @@ def dft_single_point(numbers: Sequence[int], positions_angstrom: ArrayLike, *, c
     if not np.isfinite(energy):
         raise EngineError(f"{what}: PySCF returned a non-finite energy")
     s2 = None if restricted else float(final.spin_square()[0])
-    return DFTResult(energy_hartree=energy, dispersion_hartree=e_disp, n_basis=int(mol.nao_nr()),
-                     n_electrons=int(mol.nelectron), spin=int(mol.spin), restricted=restricted, scf_route=route,
-                     scf_cycles=cycles["n"], seconds=time.perf_counter() - start, s_squared=s2,
-                     solvent_model=label)
+    result = DFTResult(energy_hartree=energy, dispersion_hartree=e_disp, n_basis=int(mol.nao_nr()),
+                       n_electrons=int(mol.nelectron), spin=int(mol.spin), restricted=restricted, scf_route=route,
+                       scf_cycles=cycles["n"], seconds=time.perf_counter() - start, s_squared=s2,
+                       solvent_model=label)
+    return result, final
+
+
+class DFTEngine:
+    """Gas-phase DFT energies and forces behind the engine protocol (:class:`~cationcalc.engines.base.Engine`),
+    so that ASE's optimisers and the numerical Hessian run at a DFT level.
+
+    ``method`` is the level as the trade writes it (``B3LYP-D3BJ/def2-SVP``); ``xc`` and ``basis`` are PySCF's
+    strings.  The converged density of the last call seeds the next call on the same atoms.  It computes no
+    partial charges (zeros) and no bond orders.
+    """
+
+    name = "pyscf"
+    solvent_model = "gas phase only"
+
+    def __init__(self, method: str, xc: str, basis: str, *, grid_level: int = 3, threads: int | None = None,
+                 max_memory_mb: float | None = None):
+        from cationcalc.engines.base import EngineCounters
+
+        self.method, self.xc, self.basis = method, xc, basis
+        self.grid_level, self.threads, self.max_memory_mb = int(grid_level), threads, max_memory_mb
+        self.counters = EngineCounters()
+        self._guess: tuple[tuple, np.ndarray] | None = None
+
+    def solvents(self) -> tuple[str, ...]:
+        return ()
+
+    def compute(self, numbers: Sequence[int], positions_angstrom: np.ndarray, *, charge: int, multiplicity: int,
+                solvent: str | None) -> "EngineResult":
+        from cationcalc.chem import units
+        from cationcalc.engines.base import CallTimer, EngineResult, UnknownSolventError, check_finite
+
+        if solvent is not None:
+            raise UnknownSolventError(f"DFT forces here are gas phase only (asked for {solvent!r})")
+        key = (tuple(int(z) for z in numbers), int(charge), int(multiplicity))
+        guess = self._guess[1] if self._guess is not None and self._guess[0] == key else None
+        with CallTimer(self.counters):
+            dft, gradient, density = dft_energy_and_gradient(
+                numbers, positions_angstrom, charge=charge, multiplicity=multiplicity, xc=self.xc, basis=self.basis,
+                grid_level=self.grid_level, threads=self.threads, max_memory_mb=self.max_memory_mb,
+                density_guess=guess, what=f"{self.method} forces")
+        self._guess = (key, density)
+        forces = -gradient * units.HARTREE_EV / units.BOHR_ANGSTROM
+        charges = np.zeros(len(key[0]))
+        return check_finite(EngineResult(dft.energy_hartree * units.HARTREE_EV, forces, charges), self.method)
 
 
 def _kohn_sham(mol, *, xc: str, grid_level: int, conv_tol: float, max_cycle: int):
@@ -311,6 +392,6 @@ class _nullcontext:
         return False
 
 
-__all__ = ["dft_single_point", "DFTResult", "DFTUnavailable", "DFTConvergenceError", "ChargeMultiplicityError",
+__all__ = ["dft_single_point", "dft_energy_and_gradient", "DFTEngine", "DFTResult", "DFTUnavailable", "DFTConvergenceError", "ChargeMultiplicityError",
            "require_pyscf", "spin_of", "count_basis_functions", "build_molecule", "SMD_NAMES", "smd_name",
            "dielectric_constant", "INSTALL_HINT", "PYSCF_SOLVENT_MODELS"]

@@ -82,6 +82,15 @@ DEFAULT_LEVEL = "wB97X-D3BJ/def2-TZVP"
 MAX_BASIS_FUNCTIONS = 800
 #: solvent models a level may name after the basis
 SOLVENT_MODELS = ("ALPB", "CPCM", "SMD")
+#: the level DFT geometries are optimised at when --refine-geometry names none (see the module notes)
+DEFAULT_GEOMETRY_LEVEL = "B3LYP-D3BJ/def2-SVP"
+#: convergence of a DFT geometry: max |F| in eV/Å, and the step limit
+DFT_GEOMETRY_FMAX = 0.02
+DFT_GEOMETRY_MAX_STEPS = 150
+#: gradient steps a DFT geometry optimisation from a GFN2-xTB minimum is assumed to take (cost estimate);
+#: a gradient costs about GRADIENT_COST single points
+ASSUMED_GEOMETRY_STEPS = 12
+GRADIENT_COST = 1.6
 
 
 class RefineError(ValueError):
@@ -282,8 +291,13 @@ def solvation_label(level: Level, settings: Settings) -> str:
     return f"{'C-PCM' if model == 'CPCM' else 'SMD'}({settings.solvent}) in the DFT calculation (PySCF)"
 
 
-def refined_level_name(level: Level, result_level: str, settings: Settings) -> str:
-    """The refined result's level: DFT//xTB with the solvation route, e.g. wB97X-D3BJ/def2-TZVP//GFN2-xTB (gas)."""
+def refined_level_name(level: Level, result_level: str, settings: Settings, geometry: Level | None = None) -> str:
+    """The refined result's level: DFT//xTB with the solvation route, e.g. wB97X-D3BJ/def2-TZVP//GFN2-xTB (gas),
+    or DFT//DFT with the thermal corrections' level, wB97X-D3BJ/def2-TZVP//B3LYP-D3BJ/def2-SVP (thermal:
+    GFN2-xTB (gas))."""
+    if geometry is not None:
+        base = refined_level_name(level, result_level, settings)
+        return base.replace(f"//{result_level}", f"//{geometry.name} (thermal: {result_level})")
     if settings.solvent is None:
         return f"{level.name}//{result_level}"
     model = level.solvent_model or "ALPB"
@@ -292,24 +306,81 @@ def refined_level_name(level: Level, result_level: str, settings: Settings) -> s
     return f"{dft}//{result_level}"
 
 
-def refined_key(result: SpeciesResult, level: Level, settings: Settings) -> str:
-    """Store key of a refined result: the species key plus the level and the solvation route."""
+def refined_key(result: SpeciesResult, level: Level, settings: Settings, geometry: Level | None = None) -> str:
+    """Store key of a refined result: the species key plus the level, the solvation route and the geometry level."""
     payload = f"{result.key}|refine|{level.name}|{solvation_label(level, settings)}"
+    if geometry is not None:
+        payload += f"|geometry|{geometry.name}|{DFT_GEOMETRY_FMAX}"
     return hashlib.sha256(payload.encode()).hexdigest()
 
 
-def _xtb_energy_hartree(result: SpeciesResult, settings: Settings, solvent: str | None) -> float:
+def parse_geometry_level(text: str | Level | bool | None) -> Level | None:
+    """The level DFT geometries are optimised at: None (GFN2-xTB geometries), True → the default level."""
+    if text is None or text is False:
+        return None
+    level = parse_level(DEFAULT_GEOMETRY_LEVEL if text is True else text)
+    if level.solvent_model is not None:
+        raise RefineError(f"DFT geometries are optimised in the gas phase; drop /{level.solvent_model} from "
+                          f"{level.label!r}")
+    return level
+
+
+def estimate_geometry_cost(numbers: Sequence[int], geometry: Level, threads: int = 1) -> CostEstimate:
+    """Cost of a DFT geometry optimisation: ASSUMED_GEOMETRY_STEPS gradients of GRADIENT_COST single points."""
+    single = estimate_cost(numbers, geometry, threads)
+    return CostEstimate(single.n_basis, single.n_aux, single.memory_mb,
+                        single.seconds * ASSUMED_GEOMETRY_STEPS * GRADIENT_COST, single.threads, single.over_limit)
+
+
+@dataclass(frozen=True)
+class DFTGeometry:
+    """A structure optimised at a DFT level, and what it took."""
+
+    positions_angstrom: list
+    gradients: int
+    converged: bool
+    fmax_ev_per_angstrom: float
+    seconds: float
+    bonding_changed: str = ""
+
+
+def optimise_dft_geometry(result: SpeciesResult, geometry: Level, *, threads: int | None = None,
+                          max_memory_mb: float | None = None) -> DFTGeometry:
+    """Relax the result's (GFN2-xTB) structure at a gas-phase DFT level with ASE's LBFGS on analytic gradients."""
+    from cationcalc.chem.bonding import bonds_from_geometry, compare_bonding
+    from cationcalc.compute.optimize import optimize
+    from cationcalc.engines.pyscf_engine import DFTEngine
+
+    engine = DFTEngine(geometry.name, geometry.functional.xc, geometry.pyscf_basis,
+                       grid_level=geometry.functional.grid_level, threads=threads, max_memory_mb=max_memory_mb)
+    start = time.perf_counter()
+    relaxed = optimize(result.numbers, result.positions_angstrom, engine, charge=result.charge,
+                       multiplicity=result.multiplicity, fmax=DFT_GEOMETRY_FMAX, max_steps=DFT_GEOMETRY_MAX_STEPS)
+    before = bonds_from_geometry(result.numbers, result.positions_angstrom)
+    change = compare_bonding(before, result.numbers, relaxed.positions, result.charge)
+    changed = (change.relaxed_smiles or "a bridged structure") if change.changed else ""
+    return DFTGeometry(relaxed.positions.tolist(), engine.counters.calls, relaxed.converged, relaxed.max_force_ev_per_angstrom,
+                       time.perf_counter() - start, changed)
+
+
+def _xtb_energy_hartree(result: SpeciesResult, settings: Settings, solvent: str | None,
+                        positions_angstrom: list | None = None) -> float:
     from cationcalc.engines import get_engine
 
     engine = get_engine(settings.engine, max_iterations=settings.scf_max_iterations)
-    r = engine.compute(result.numbers, result.positions_angstrom, charge=result.charge,
+    positions = result.positions_angstrom if positions_angstrom is None else positions_angstrom
+    r = engine.compute(result.numbers, positions, charge=result.charge,
                        multiplicity=result.multiplicity, solvent=solvent)
     return r.energy_ev / units.HARTREE_EV
 
 
 def refine_species(result: SpeciesResult, level: str | Level, settings: Settings, *, force: bool = False,
-                   threads: int | None = None) -> tuple[SpeciesResult, Refinement]:
-    """The refined result and what was done; RefineError/ChargeMultiplicityError/DFTConvergenceError on failure."""
+                   threads: int | None = None, geometry: Level | None = None) -> tuple[SpeciesResult, Refinement]:
+    """The refined result and what was done; RefineError/ChargeMultiplicityError/DFTConvergenceError on failure.
+
+    With ``geometry`` (a gas-phase DFT level) the structure is first optimised at that level, and the single
+    point runs on the DFT structure (DFT//DFT); the thermal corrections stay those of GFN2-xTB.
+    """
     from cationcalc.engines.pyscf_engine import dft_single_point, require_pyscf, spin_of
 
     lvl = parse_level(level)
@@ -326,21 +397,29 @@ def refine_species(result: SpeciesResult, level: str | Level, settings: Settings
                           f"{MAX_BASIS_FUNCTIONS} (~{_duration(estimate.seconds)}, ~{estimate.memory_mb:.0f} MB); "
                           "use --force to run it anyway or a def2-SVP level")
     start = time.perf_counter()
+    positions, dft_geometry = result.positions_angstrom, None
+    if geometry is not None:
+        geometry_estimate = estimate_geometry_cost(result.numbers, geometry, n_threads)
+        dft_geometry = optimise_dft_geometry(result, geometry, threads=threads,
+                                             max_memory_mb=scf_memory_mb(geometry_estimate))
+        positions = dft_geometry.positions_angstrom
     model = None
     if settings.solvent is not None and lvl.solvent_model in ("CPCM", "SMD"):
         model = "C-PCM" if lvl.solvent_model == "CPCM" else "SMD"
-    dft = dft_single_point(result.numbers, result.positions_angstrom, charge=result.charge,
+    dft = dft_single_point(result.numbers, positions, charge=result.charge,
                            multiplicity=result.multiplicity, xc=lvl.functional.xc, basis=lvl.pyscf_basis,
                            grid_level=lvl.functional.grid_level, solvent=settings.solvent, solvent_model=model,
                            threads=threads, max_memory_mb=scf_memory_mb(estimate), what=what)
     e_dft = dft.energy_hartree
     e_xtb = _xtb_energy_hartree(result, settings, settings.solvent)
     if settings.solvent is not None and model is None:
-        e_dft += e_xtb - _xtb_energy_hartree(result, settings, None)  # + ΔG_solv(ALPB) at this geometry
+        # + ΔG_solv(ALPB) at the geometry of the single point
+        e_dft += (_xtb_energy_hartree(result, settings, settings.solvent, positions)
+                  - _xtb_energy_hartree(result, settings, None, positions))
     shift = e_dft - e_xtb
     seconds = time.perf_counter() - start
-    label = refined_level_name(lvl, result.level, settings)
-    warnings = list(result.warnings)
+    label = refined_level_name(lvl, result.level, settings, geometry)
+    warnings = list(result.warnings) + _geometry_warnings(result, geometry, dft_geometry)
     if result.rearranged:
         warnings.append(f"refined as what GFN2-xTB relaxed it to ({result.relaxed_smiles or 'a bridged structure'}; "
                         f"{result.bonding_change}): the DFT energy belongs to that structure")
@@ -353,11 +432,14 @@ def refine_species(result: SpeciesResult, level: str | Level, settings: Settings
                             f"(ideal {s * (s + 1):.3f})")
     gradients = dict(result.profile.gradients)
     gradients["dft_single_point"] = gradients.get("dft_single_point", 0) + 1
+    if dft_geometry is not None:
+        gradients["dft_gradient"] = gradients.get("dft_gradient", 0) + dft_geometry.gradients
     profile = Profile(wall_s=result.profile.wall_s + seconds, engine_s=result.profile.engine_s + dft.seconds,
                       gradients=gradients)
     refined = result.model_copy(update={
         "E_hartree": result.E_hartree + shift, "H_hartree": result.H_hartree + shift,
-        "G_hartree": result.G_hartree + shift, "level": label, "key": refined_key(result, lvl, settings),
+        "G_hartree": result.G_hartree + shift, "level": label, "key": refined_key(result, lvl, settings, geometry),
+        "positions_angstrom": [list(map(float, xyz)) for xyz in positions],
         "warnings": warnings, "profile": profile})
     info = Refinement(level=lvl.name, solvation=solvation_label(lvl, settings), E_dft_hartree=e_dft,
                       E_xtb_hartree=e_xtb, shift_hartree=shift, n_basis=dft.n_basis, seconds=seconds,
@@ -365,8 +447,22 @@ def refine_species(result: SpeciesResult, level: str | Level, settings: Settings
     return refined, info
 
 
+def _geometry_warnings(result: SpeciesResult, geometry: Level | None, found: DFTGeometry | None) -> list[str]:
+    """What a DFT geometry optimisation needs to tell the reader."""
+    if geometry is None or found is None:
+        return []
+    out = []
+    if not found.converged:
+        out.append(f"{geometry.name} geometry of {result.smiles} not converged in {found.gradients} gradients "
+                   f"(max force {found.fmax_ev_per_angstrom:.3f} eV/Å)")
+    if found.bonding_changed:
+        out.append(f"at {geometry.name} {result.smiles} relaxed to {found.bonding_changed}: the refined energy "
+                   "belongs to that structure, the thermal corrections to the GFN2-xTB one")
+    return out
+
+
 def refine_result(result: SpeciesResult, level: str | Level, settings: Settings, *, force: bool = False,
-                  threads: int | None = None) -> SpeciesResult:
+                  threads: int | None = None, geometry: str | Level | bool | None = None) -> SpeciesResult:
     """E_DFT at the GFN2-xTB geometry, thermal corrections from the GFN2-xTB Hessian (DFT//xTB).
 
     H and G are shifted by E_DFT − E_xTB at the geometry of the result; the
@@ -374,12 +470,16 @@ def refine_result(result: SpeciesResult, level: str | Level, settings: Settings,
     bonding changed (``rearranged``) is refined as what it became, with a
     warning.  Raises for an impossible charge/multiplicity, a species above
     the size limit (unless ``force``) or an SCF that does not converge.
+    With ``geometry`` (True for :data:`DEFAULT_GEOMETRY_LEVEL`, or a level)
+    the single point runs on a DFT-optimised structure instead (DFT//DFT).
     """
-    return refine_species(result, level, settings, force=force, threads=threads)[0]
+    return refine_species(result, level, settings, force=force, threads=threads,
+                          geometry=parse_geometry_level(geometry))[0]
 
 
 def refine_many(results: dict, level: str | Level, settings: Settings, *, force: bool = False,
-                threads: int | None = None, store: ResultStore | None = None, log: Callable[[str], None] | None = None) -> dict:
+                threads: int | None = None, store: ResultStore | None = None, log: Callable[[str], None] | None = None,
+                geometry: str | Level | bool | None = None) -> dict:
     """Refine every SpeciesResult in ``results`` (key → result); failures become SpeciesFailure.
 
     Estimates are sent to ``log`` (one line per species, then a total) before
@@ -390,7 +490,7 @@ def refine_many(results: dict, level: str | Level, settings: Settings, *, force:
     from cationcalc.engines.base import EngineError
     from cationcalc.execution.executors import SpeciesFailure
 
-    lvl = parse_level(level)
+    lvl, geo = parse_level(level), parse_geometry_level(geometry)
     out = _Refined()
     todo = []
     for key, result in results.items():
@@ -398,29 +498,28 @@ def refine_many(results: dict, level: str | Level, settings: Settings, *, force:
             out[key] = result
             continue
         if store is not None:
-            cached = store.get(refined_key(result, lvl, settings))
+            cached = store.get(refined_key(result, lvl, settings, geo))
             if cached is not None:
                 out[key] = cached
                 continue
         todo.append(key)
-    estimates = {}
+    estimates, geometry_estimates = {}, {}
     n_threads = int(threads) if threads else 1
     for key in todo:
         r = results[key]
         try:
             estimates[key] = estimate_cost(r.numbers, lvl, n_threads)
+            if geo is not None:
+                geometry_estimates[key] = estimate_geometry_cost(r.numbers, geo, n_threads)
         except Exception as exc:  # noqa: BLE001 - a basis without this element
             out[key] = SpeciesFailure(f"{r.smiles}: {lvl.name}: {str(exc).splitlines()[0]}")
+            estimates.pop(key, None)
     if log and estimates:
-        for key, est in estimates.items():
-            log(f"refine {lvl.name}: " + est.describe(results[key].smiles))
-        total = sum(e.seconds for e in estimates.values())
-        log(f"refine {lvl.name}: {len(estimates)} single point{'s' if len(estimates) > 1 else ''}, "
-            f"~{_duration(total)} in all; largest ~{max(e.memory_mb for e in estimates.values()):.0f} MB")
+        _log_estimates(log, lvl, geo, {k: results[k].smiles for k in estimates}, estimates, geometry_estimates)
     for key in estimates:
         r = results[key]
         try:
-            refined, info = refine_species(r, lvl, settings, force=force, threads=threads)
+            refined, info = refine_species(r, lvl, settings, force=force, threads=threads, geometry=geo)
         except (EngineError, ValueError) as exc:
             out[key] = SpeciesFailure(f"{lvl.name} refinement: {str(exc).splitlines()[0]}")
             continue
@@ -429,6 +528,22 @@ def refine_many(results: dict, level: str | Level, settings: Settings, *, force:
         if store is not None:
             store.put(refined, settings)
     return out
+
+
+def _log_estimates(log: Callable[[str], None], level: Level, geometry: Level | None, names: dict,
+                   estimates: dict, geometry_estimates: dict) -> None:
+    """One line per species and a total, before anything runs."""
+    for key, est in estimates.items():
+        log(f"refine {level.name}: " + est.describe(names[key]))
+        if key in geometry_estimates:
+            log(f"  geometry at {geometry.name}: ~{_duration(geometry_estimates[key].seconds)} "
+                f"(~{ASSUMED_GEOMETRY_STEPS} gradients assumed)")
+    total = sum(e.seconds for e in estimates.values()) + sum(e.seconds for e in geometry_estimates.values())
+    what = f"{len(estimates)} single point{'s' if len(estimates) > 1 else ''}"
+    if geometry_estimates:
+        what += f" on {geometry.name} geometries"
+    log(f"refine {level.name}: {what}, ~{_duration(total)} in all; "
+        f"largest ~{max(e.memory_mb for e in estimates.values()):.0f} MB")
 
 
 # ---------------------------------------------------------------- task records
@@ -520,10 +635,13 @@ def select_for_refinement(task: str, finished_groups: list[list[dict]], top_k: i
     return chosen
 
 
-def refine_note(level: Level, settings: Settings) -> str:
-    return (f"electronic energies from {level.name} single points (density fitting) on the GFN2-xTB geometries "
-            f"({settings.level}); ZPE, thermal corrections and entropies from the GFN2-xTB Hessian: the DFT//xTB "
-            f"composite {refined_level_name(level, settings.level, settings)}; solvation: "
+def refine_note(level: Level, settings: Settings, geometry: Level | None = None) -> str:
+    structures = (f"on {geometry.name} geometries (gas phase, started from the GFN2-xTB ones)" if geometry else
+                  f"on the GFN2-xTB geometries ({settings.level})")
+    composite = "DFT//DFT" if geometry else "DFT//xTB"
+    return (f"electronic energies from {level.name} single points (density fitting) {structures}; ZPE, thermal "
+            f"corrections and entropies from the GFN2-xTB Hessian ({settings.level}): the {composite} composite "
+            f"{refined_level_name(level, settings.level, settings, geometry)}; solvation: "
             f"{solvation_label(level, settings)}; GFN2-xTB values kept in the *_xtb_* keys")
 
 
@@ -536,17 +654,18 @@ def refine_task_records(task: str, groups: list, finished_groups: list[list[dict
     of each input and ``finished_groups`` their GFN2-xTB records, in the same
     order; ``results`` maps each species to its GFN2-xTB result.  Options:
     ``refine`` (level), ``refine_top_k``, ``refine_window_kcal_mol``,
+    ``refine_geometry`` (a gas-phase DFT level for the structures: DFT//DFT),
     ``refine_log`` (callable receiving the cost estimate lines).  The
     GFN2-xTB records are not changed.
     """
-    lvl = parse_level(options["refine"])
+    lvl, geo = parse_level(options["refine"]), parse_geometry_level(options.get("refine_geometry"))
     selected = select_for_refinement(task, finished_groups, options.get("refine_top_k"),
                                      options.get("refine_window_kcal_mol"))
     needed = list(dict.fromkeys(sp for g, i in sorted(selected) for sp in groups[g][i].needs.values()))
     refined = refine_many({sp: results[sp] for sp in needed}, lvl, settings, force=force,
-                          threads=max(1, int(workers or 1)), store=store, log=options.get("refine_log"))
+                          threads=max(1, int(workers or 1)), store=store, log=options.get("refine_log"), geometry=geo)
     return [[record if record.get("error") else
-             _refined_record(groups[g][i], record, refined, lvl, settings) if (g, i) in selected else
+             _refined_record(groups[g][i], record, refined, lvl, settings, geo) if (g, i) in selected else
              _unselected_record(record, lvl, settings)
              for i, record in enumerate(finished)] for g, finished in enumerate(finished_groups)]
 
@@ -562,14 +681,15 @@ def _unselected_record(record: Mapping, level: Level, settings: Settings) -> dic
     return rec
 
 
-def _refined_record(prepared, record: Mapping, refined: "_Refined", level: Level, settings: Settings) -> dict:
+def _refined_record(prepared, record: Mapping, refined: "_Refined", level: Level, settings: Settings,
+                    geometry: Level | None = None) -> dict:
     """The record of one request rebuilt from its refined species, or its failure (GFN2-xTB twins kept)."""
     from cationcalc.execution.executors import SpeciesFailure
 
     res = {role: refined[sp] for role, sp in prepared.needs.items()}
     failed = [f"{role} {sp.smiles}: {res[role].message}" for role, sp in prepared.needs.items()
               if isinstance(res[role], SpeciesFailure)]
-    note = refine_note(level, settings)
+    note = refine_note(level, settings, geometry)
     if failed:
         rec = {**prepared.base, "error": "; ".join(failed), "warnings": list(record.get("warnings", [])),
                "rearranged": record.get("rearranged", False)}
@@ -579,7 +699,7 @@ def _refined_record(prepared, record: Mapping, refined: "_Refined", level: Level
         return rec
     rec = merge_records(prepared.finish(res), record)
     infos = [refined.info[sp] for sp in dict.fromkeys(prepared.needs.values()) if sp in refined.info]
-    rec.update({"level": refined_level_name(level, settings.level, settings), "xtb_level": settings.level,
+    rec.update({"level": refined_level_name(level, settings.level, settings, geometry), "xtb_level": settings.level,
                 "refine_level": level.name, "refine_solvation": solvation_label(level, settings),
                 "refine_note": note, "refine_seconds": round(sum(x.seconds for x in infos), 2)})
     return rec

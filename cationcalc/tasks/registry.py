@@ -36,7 +36,7 @@ from cationcalc.tasks.views import Column
 TASK_MODULES = ("cationcalc.tasks.hia", "cationcalc.tasks.heterolysis", "cationcalc.tasks.thermo",
                 "cationcalc.tasks.ionization", "cationcalc.tasks.shifts", "cationcalc.tasks.rate")
 #: options every refinable task takes (DFT single points on the GFN2-xTB structures)
-REFINE_OPTIONS = ("refine", "refine_top_k", "refine_window_kcal_mol")
+REFINE_OPTIONS = ("refine", "refine_top_k", "refine_window_kcal_mol", "refine_geometry")
 
 
 def option(default: Any = ..., description: str = "", *, flag: str | None = None, cli_help: str | None = None,
@@ -62,6 +62,16 @@ class RefinableOptions(TaskOptions):
     refine: str | None = Field(None, description="DFT level, e.g. wB97X-D3BJ/def2-TZVP (true: the default level)")
     refine_top_k: int | None = Field(None, ge=1, description="refine only the k best requests of the ranking")
     refine_window_kcal_mol: float | None = Field(None, ge=0, description="refine only those within this of the best")
+    refine_geometry: str | None = Field(None, description="optimise each structure at this gas-phase DFT level "
+                                        "before the single point (true: B3LYP-D3BJ/def2-SVP)")
+
+    @field_validator("refine_geometry", mode="before")
+    @classmethod
+    def _geometry_level(cls, value):
+        from cationcalc.execution.refine import parse_geometry_level
+
+        level = parse_geometry_level(value)
+        return None if level is None else level.name
 
     @field_validator("refine", mode="before")
     @classmethod
@@ -76,8 +86,9 @@ class RefinableOptions(TaskOptions):
 
     @model_validator(mode="after")
     def _selection_needs_level(self):
-        if self.refine is None and (self.refine_top_k is not None or self.refine_window_kcal_mol is not None):
-            raise ValueError("refine_top_k and refine_window_kcal_mol need refine: LEVEL")
+        if self.refine is None and (self.refine_top_k is not None or self.refine_window_kcal_mol is not None
+                                    or self.refine_geometry is not None):
+            raise ValueError("refine_top_k, refine_window_kcal_mol and refine_geometry need refine: LEVEL")
         return self
 
 

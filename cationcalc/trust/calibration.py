@@ -65,9 +65,10 @@ MIN_GROUP_N = 3
 CALIBRATION_COLUMNS = ["id", "method", "engine", "solvent_model", "solvent", "level", "package_version",
                        "fit_date", "dataset", "n", "a", "b", "loo_mae_kcal_mol", "loo_rmse_kcal_mol",
                        "loo_max_kcal_mol", "raw_mae_kcal_mol", "raw_rmse_kcal_mol", "raw_mean_error_kcal_mol",
-                       "notes"]
+                       "class_loo_mae_kcal_mol", "notes"]
 RESIDUAL_COLUMNS = ["calibration_id", "name", "cation_smiles", "cation_class", "class_group", "hia_exp_kcal_mol",
-                    "hia_calc_kcal_mol", "raw_residual_kcal_mol", "loo_residual_kcal_mol", "status", "source"]
+                    "hia_calc_kcal_mol", "raw_residual_kcal_mol", "loo_residual_kcal_mol", "class_loo_residual_kcal_mol",
+                    "status", "source"]
 
 
 def class_group(cls: str, cation_smiles: str | None = None) -> str:
@@ -160,6 +161,49 @@ def loo_predictions(x: ArrayLike, y: ArrayLike) -> np.ndarray:
     return out
 
 
+def class_offsets(x: ArrayLike, y: ArrayLike, groups: list[str], line: LinearFit,
+                  min_n: int = MIN_GROUP_N) -> dict[str, float]:
+    """Per class group, the shrunk mean of y − line(x): an empirical-Bayes offset added to the line's prediction.
+
+    Only groups with at least ``min_n`` points get an offset.  Each group's
+    mean residual m_g is shrunk toward zero by τ²/(τ² + σ²/n_g), where σ² is
+    the pooled within-group variance of the residuals and τ² the variance of
+    the group means beyond what σ²/n_g explains (method of moments; no
+    offsets when τ² ≤ 0, i.e. the groups do not differ more than chance).
+
+    >>> fit = LinearFit(1.0, 0.0, 8, 1.0)
+    >>> x = np.zeros(8); y = np.array([5.0, 5.5, 4.5, 5.0, -5.0, -4.5, -5.5, -5.0])
+    >>> {g: round(v, 2) for g, v in class_offsets(x, y, ["a"] * 4 + ["b"] * 4, fit).items()}
+    {'a': 5.0, 'b': -5.0}
+    """
+    res = np.asarray(y, dtype=float) - line.predict(x)
+    members = {g: res[[i for i, h in enumerate(groups) if h == g]] for g in dict.fromkeys(groups)}
+    own = {g: e for g, e in members.items() if e.size >= min_n}
+    if len(own) < 2:
+        return {}
+    within = float(np.mean([e.var(ddof=1) for e in own.values()]))
+    means = np.array([e.mean() for e in own.values()])
+    tau2 = float(means.var(ddof=1)) - float(np.mean([within / e.size for e in own.values()]))
+    if tau2 <= 0:
+        return {}
+    return {g: float(tau2 / (tau2 + within / e.size) * e.mean()) for g, e in own.items()}
+
+
+def loo_class_predictions(x: ArrayLike, y: ArrayLike, groups: list[str]) -> np.ndarray:
+    """Leave-one-out predictions of the line plus shrunk class offsets (both refitted without the point)."""
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    if x.size < 3:
+        raise ValueError("leave-one-out needs at least three points")
+    out = np.empty_like(y)
+    for i in range(x.size):
+        keep = np.arange(x.size) != i
+        kept_groups = [g for j, g in enumerate(groups) if j != i]
+        line = fit_linear(x[keep], y[keep])
+        out[i] = line.predict(x[i]) + class_offsets(x[keep], y[keep], kept_groups, line).get(groups[i], 0.0)
+    return out
+
+
 def loo_residuals(x: ArrayLike, y: ArrayLike) -> np.ndarray:
     """LOO prediction minus observed y, point by point."""
     return loo_predictions(x, y) - np.asarray(y, dtype=float)
@@ -190,6 +234,8 @@ class Residual:
     loo_residual_kcal_mol: float
     status: str = ""
     source: str = ""
+    #: leave-one-out residual of the line plus shrunk class offsets (NaN where not computed)
+    class_loo_residual_kcal_mol: float = float("nan")
 
 
 @dataclass(frozen=True)
@@ -214,16 +260,50 @@ class Calibration:
     raw_mae_kcal_mol: float
     raw_rmse_kcal_mol: float
     raw_mean_error_kcal_mol: float
+    #: leave-one-out MAE of the line plus shrunk class offsets (NaN where not computed)
+    class_loo_mae_kcal_mol: float = float("nan")
     notes: str = ""
     residuals: tuple[Residual, ...] = field(default=(), compare=False)
 
-    def apply(self, hia_calc_kcal_mol: float) -> float:
-        """The calibrated HIA (kcal/mol) of a computed one."""
-        return self.a * float(hia_calc_kcal_mol) + self.b
+    @property
+    def by_class(self) -> bool:
+        """True when the class offsets lowered the leave-one-out error, so they are applied."""
+        return bool(self.class_loo_mae_kcal_mol < self.loo_mae_kcal_mol)
+
+    def class_offset(self, group: str | None) -> float:
+        """The shrunk offset (kcal/mol) of a class group; 0 without class offsets or for a group without one."""
+        if not self.by_class or group is None:
+            return 0.0
+        return self.offsets().get(group, 0.0)
+
+    def offsets(self) -> dict[str, float]:
+        """Shrunk class offsets fitted on the stored residuals (empty when the set gives none)."""
+        calc = [r.hia_calc_kcal_mol for r in self.residuals]
+        exp = [r.hia_exp_kcal_mol for r in self.residuals]
+        return class_offsets(calc, exp, [r.class_group for r in self.residuals],
+                             LinearFit(self.a, self.b, self.n, float("nan"))) if self.residuals else {}
+
+    def apply(self, hia_calc_kcal_mol: float, group: str | None = None) -> float:
+        """The calibrated HIA (kcal/mol) of a computed one: the line, plus the class offset where one applies."""
+        return self.a * float(hia_calc_kcal_mol) + self.b + self.class_offset(group)
+
+    def describe(self, group: str | None = None) -> str:
+        """The correction applied to a cation of ``group``, in words."""
+        line = f"HIA_exp ≈ {self.a:.4f}·HIA_calc {self.b:+.2f} (n {self.n}, LOO RMSE {self.loo_rmse_kcal_mol:.1f} kcal/mol)"
+        offset = self.class_offset(group)
+        if offset:
+            return (f"{line} {offset:+.2f} kcal/mol class offset for {group} (shrunk; LOO MAE with class offsets "
+                    f"{self.class_loo_mae_kcal_mol:.1f} against {self.loo_mae_kcal_mol:.1f} for the line alone)")
+        return line + (f"; no class offset for {group or 'this cation'}" if self.by_class else "")
 
     def group_residuals(self, group: str | None, kind: str = "raw") -> np.ndarray:
-        """Residuals (``kind`` 'raw' or 'loo') of one class group, or of all cations when group is None."""
-        attr = "raw_residual_kcal_mol" if kind == "raw" else "loo_residual_kcal_mol"
+        """Residuals (``kind`` 'raw' or 'loo') of one class group, or of all cations when group is None.
+
+        'loo' is the leave-one-out residual of the correction applied: the line plus class offsets when
+        :attr:`by_class`, the line alone otherwise.
+        """
+        attr = ("raw_residual_kcal_mol" if kind == "raw" else
+                "class_loo_residual_kcal_mol" if self.by_class else "loo_residual_kcal_mol")
         return np.array([getattr(r, attr) for r in self.residuals if group is None or r.class_group == group])
 
     def group_statistics(self, kind: str = "raw") -> dict[str, dict]:
@@ -263,18 +343,20 @@ def fit_calibration(rows: list[dict], *, method: str, engine: str, solvent_model
     exp = np.array([float(r["hia_exp_kcal_mol"]) for r in rows])
     fit = fit_linear(calc, exp)
     loo = loo_predictions(calc, exp) - exp
+    class_loo = loo_class_predictions(calc, exp, [r["class_group"] for r in rows]) - exp
     raw = calc - exp
     raw_stats, loo_stats = error_statistics(raw), error_statistics(loo)
     residuals = tuple(Residual(r["name"], r["cation_smiles"], r.get("cation_class", ""), r["class_group"],
                                float(r["hia_exp_kcal_mol"]), float(r["hia_calc_kcal_mol"]), float(raw[i]),
-                               float(loo[i]), r.get("status", ""), r.get("source", ""))
+                               float(loo[i]), r.get("status", ""), r.get("source", ""), float(class_loo[i]))
                       for i, r in enumerate(rows))
     return Calibration(id=calibration_id(level), method=method, engine=engine, solvent_model=solvent_model or "none",
                        solvent=solvent or "none", level=level, package_version=__version__,
                        fit_date=fit_date or _dt.date.today().isoformat(), dataset=dataset, n=len(rows),
                        a=fit.a, b=fit.b, loo_mae_kcal_mol=loo_stats["mae"], loo_rmse_kcal_mol=loo_stats["rmse"],
                        loo_max_kcal_mol=loo_stats["max"], raw_mae_kcal_mol=raw_stats["mae"],
-                       raw_rmse_kcal_mol=raw_stats["rmse"], raw_mean_error_kcal_mol=raw_stats["mean"], notes=notes,
+                       raw_rmse_kcal_mol=raw_stats["rmse"], raw_mean_error_kcal_mol=raw_stats["mean"],
+                       class_loo_mae_kcal_mol=error_statistics(class_loo)["mae"], notes=notes,
                        residuals=residuals)
 
 
@@ -306,7 +388,11 @@ def write_calibrations(calibrations: list[Calibration], folder: str | Path) -> l
 
 
 _FLOATS = {"a", "b", "loo_mae_kcal_mol", "loo_rmse_kcal_mol", "loo_max_kcal_mol", "raw_mae_kcal_mol",
-           "raw_rmse_kcal_mol", "raw_mean_error_kcal_mol"}
+           "raw_rmse_kcal_mol", "raw_mean_error_kcal_mol", "class_loo_mae_kcal_mol"}
+
+
+def _float(text: str | None) -> float:
+    return float(text) if text not in (None, "") else float("nan")
 
 
 def _parse(rows: list[dict], residual_rows: list[dict]) -> list[Calibration]:
@@ -315,9 +401,10 @@ def _parse(rows: list[dict], residual_rows: list[dict]) -> list[Calibration]:
         residuals = tuple(
             Residual(r["name"], r["cation_smiles"], r["cation_class"], r["class_group"], float(r["hia_exp_kcal_mol"]),
                      float(r["hia_calc_kcal_mol"]), float(r["raw_residual_kcal_mol"]),
-                     float(r["loo_residual_kcal_mol"]), r.get("status", ""), r.get("source", ""))
+                     float(r["loo_residual_kcal_mol"]), r.get("status", ""), r.get("source", ""),
+                     _float(r.get("class_loo_residual_kcal_mol")))
             for r in residual_rows if r["calibration_id"] == row["id"])
-        values = {k: (float(v) if k in _FLOATS else int(v) if k == "n" else v) for k, v in row.items()}
+        values = {k: (_float(v) if k in _FLOATS else int(v) if k == "n" else v) for k, v in row.items()}
         out.append(Calibration(**values, residuals=residuals))
     return out
 
@@ -363,5 +450,5 @@ def gas_calibration(method: str = "GFN2-xTB") -> Calibration | None:
 
 
 __all__ = ["CLASS_GROUPS", "MIN_GROUP_N", "LinearFit", "Residual", "Calibration", "class_group", "cation_group",
-           "fit_linear", "loo_predictions", "loo_residuals", "error_statistics", "calibration_id",
+           "fit_linear", "loo_predictions", "loo_residuals", "class_offsets", "loo_class_predictions", "error_statistics", "calibration_id",
            "fit_calibration", "write_calibrations", "stored_calibrations", "calibration_for", "gas_calibration"]

@@ -226,7 +226,7 @@ def _annotated(r: dict, bars: _Bars) -> dict:
     did_calibrate = False
     if r.get("hia_kcal_mol") is not None:
         if bars.calibrated and bars.can_calibrate and cation != ANCHOR_SMILES:
-            r.update(_calibrated_hia(r, bars.cal))
+            r.update(_calibrated_hia(r, bars.cal, group))
             did_calibrate = True
         r.update(_hia_bars(r, 0.0 if cation == ANCHOR_SMILES else _absolute(bars.cal, group, bars.kind)))
     for q in CATION_BOUND:
@@ -244,10 +244,10 @@ def _annotated(r: dict, bars: _Bars) -> dict:
     return r
 
 
-def _calibrated_hia(r: Mapping, cal: Calibration) -> dict:
+def _calibrated_hia(r: Mapping, cal: Calibration, group: str | None) -> dict:
     """The calibrated HIA values, each raw value kept beside (in the order the keys are written)."""
     raw = float(r["hia_kcal_mol"])
-    corrected = cal.apply(raw)
+    corrected = cal.apply(raw, group)
     out = {"hia_raw_kcal_mol": raw, "hia_kcal_mol": round(corrected, 2),
            "hia_kJ_mol": round(units.kcal_to_kj(corrected), 1)}
     if r.get("hia_G_kcal_mol") is not None:
@@ -309,7 +309,8 @@ def _vs_best_bars(r: Mapping, q: str, bars: _Bars, group: str | None, cation: st
     out = {}
     b_group, b_cation = bars.best.get(r.get("input", ""), (None, None))
     if bars.calibrated and q == "hia" and did_calibrate:
-        out.update({f"{q}_vs_best_raw_kcal_mol": r[key], key: round(cal.a * float(r[key]), 2)})
+        gap = cal.a * float(r[key]) + cal.class_offset(group) - cal.class_offset(b_group)
+        out.update({f"{q}_vs_best_raw_kcal_mol": r[key], key: round(gap, 2)})
     how = bars.kind if q == "hia" else "raw"
     if b_cation is not None and b_cation == cation:
         u, basis = 0.0, "the same cation as the best site: no difference error"
@@ -340,8 +341,7 @@ def _basis(bars: _Bars, group: str | None, did_calibrate: bool, is_anchor: bool)
            "calibrated": did_calibrate}
     if did_calibrate:
         out["calibration_id"] = cal.id
-        out["calibration"] = (f"HIA_exp ≈ {cal.a:.4f}·HIA_calc {cal.b:+.2f} (n {cal.n}, LOO RMSE "
-                              f"{cal.loo_rmse_kcal_mol:.1f} kcal/mol)")
+        out["calibration"] = cal.describe(group)
     elif bars.calibrated:
         if not bars.can_calibrate:
             out["calibration_note"] = (f"no calibration is stored for {bars.level} (only gas-phase HIA "
