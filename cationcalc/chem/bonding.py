@@ -187,3 +187,33 @@ def compare_bonding(reference: frozenset, numbers: ArrayLike, positions_angstrom
                and any(p for p in formed if a in p)]
     relaxed = None if bridged else smiles_from_geometry(numbers, positions_angstrom, charge)
     return BondingChange(formed, broken, relaxed, tuple(sorted(bridged)))
+
+
+def positions_in_atom_order(mol: Chem.Mol, numbers: ArrayLike, positions_angstrom: ArrayLike,
+                            factor: float = BOND_FACTOR) -> np.ndarray | None:
+    """``positions_angstrom`` reordered to the atom order of ``mol`` (hydrogens explicit), or None.
+
+    The geometry's bond graph (covalent radii) must be the molecule's: the same
+    structure written with another atom numbering, e.g. a shift product that
+    relaxed back into its parent.  Bond orders and charges play no part.
+
+    >>> water = Chem.AddHs(Chem.MolFromSmiles("O"))
+    >>> positions_in_atom_order(water, [1, 8, 1], [[0, 0.76, 0.59], [0, 0, 0], [0, -0.76, 0.59]])[0].tolist()
+    [0.0, 0.0, 0.0]
+    """
+    numbers = [int(z) for z in numbers]
+    pos = np.asarray(positions_angstrom, dtype=float)
+    if sorted(numbers) != sorted(a.GetAtomicNum() for a in mol.GetAtoms()):
+        return None
+    bonds = bonds_from_geometry(numbers, pos, factor)
+    if len(bonds) != mol.GetNumBonds():
+        return None
+    graph = _mol_from_bonds(numbers, bonds).GetMol()
+    query = _mol_from_bonds([a.GetAtomicNum() for a in mol.GetAtoms()], bonds_from_mol(mol)).GetMol()
+    for m in (graph, query):
+        m.UpdatePropertyCache(strict=False)
+        Chem.FastFindRings(m)
+    match = graph.GetSubstructMatch(query)  # match[i]: the geometry's atom that is atom i of mol
+    if len(match) != mol.GetNumAtoms():
+        return None
+    return pos[list(match)]

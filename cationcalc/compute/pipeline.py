@@ -36,6 +36,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass, replace
+from typing import Sequence
 
 import numpy as np
 from ase.data import atomic_masses
@@ -128,14 +129,20 @@ class _Ensemble:
     standard_state_correction: float
 
 
-def compute_species(sp: Species, settings: Settings = Settings(), engine: Engine | None = None) -> SpeciesResult:
-    """Compute one species; raises ComputationError with a one-line reason."""
+def compute_species(sp: Species, settings: Settings = Settings(), engine: Engine | None = None,
+                    seeds: Sequence[np.ndarray] = ()) -> SpeciesResult:
+    """Compute one species; raises ComputationError with a one-line reason.
+
+    ``seeds``: further starting geometries (Å, in the species' atom order), optimised beside the
+    conformers the search keeps, e.g. a lower structure of this species found elsewhere in a run.
+    """
     start = time.perf_counter()
     engine = engine or get_engine(settings.engine, max_iterations=settings.scf_max_iterations)
     calls0, seconds0 = engine.counters.snapshot()
     mol, geometries = _embed(sp, settings)
     job = SpeciesJob(sp, settings, engine, [a.GetAtomicNum() for a in mol.GetAtoms()], bonds_from_mol(mol))
     screened, n_screened = _screen(job, geometries)
+    screened = screened + [np.asarray(g, dtype=float) for g in seeds]
     optimised, optimisation_calls = _optimise_and_guard(job, screened)
     outcome = _bonding_outcome(job, optimised)
     distinct, window = _distinct_in_window(mol, job, outcome.pool)

@@ -46,7 +46,9 @@ import signal
 import threading
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Callable, Iterable, Iterator, Optional, Union
+from typing import TYPE_CHECKING, Callable, Iterable, Iterator, Optional, Sequence, Union
+
+import numpy as np
 
 from cationcalc.about import __version__
 
@@ -166,20 +168,21 @@ def _unexpected(sp: Species, exc: BaseException, where: str = "worker") -> Speci
     return SpeciesFailure(f"{sp.smiles}: {where} failed: {type(exc).__name__}: {text}")
 
 
-def compute_one(sp: Species, settings: Settings) -> SpeciesResult | SpeciesFailure:
+def compute_one(sp: Species, settings: Settings, seeds: Sequence[np.ndarray] = ()) -> SpeciesResult | SpeciesFailure:
     """One species, with every expected failure turned into a SpeciesFailure.
 
     The cached engine starts each species from a clean state: an SCF seeded by
     whatever this process computed before (an isomer with the same atom list)
     would make the last digits depend on the order species reach a worker, and
-    the same study must give the same numbers on every executor.
+    the same study must give the same numbers on every executor.  ``seeds``: further starting
+    geometries (:func:`~cationcalc.compute.pipeline.compute_species`).
     """
     engine = _engine_for(settings)
     engine.reset()
     try:
         with sigint_guard():  # an interrupted species raises instead of returning a partial result
             with _sigint_held():
-                result = compute_species(sp, settings, engine)
+                result = compute_species(sp, settings, engine, seeds=seeds)
             return result
     except ValidationError as exc:  # a NaN or infinity in the result: never stored, never reported
         fields = ", ".join(".".join(str(p) for p in e["loc"]) for e in exc.errors()[:3])

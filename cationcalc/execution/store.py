@@ -291,6 +291,49 @@ class ResultStore:
         self.writes += int(inserted)
         return inserted
 
+    def put_lower(self, result: SpeciesResult, settings: Settings | None = None) -> bool:
+        """Store ``result`` unless the stored row of its key is as low or lower (E); True when written.
+
+        A species recomputed from a lower structure found later in a run replaces its row, and rows
+        derived from the old structure (same species, settings and version at another level: its DFT
+        single points) are removed, to be recomputed on the new structure.
+        """
+        payload = result.model_dump_json()
+        settings_json = json.dumps(settings.model_dump(mode="json"), sort_keys=True) if settings else "{}"
+        self.touched.setdefault(result.key, None)
+
+        def write() -> bool:
+            self._db.execute("BEGIN IMMEDIATE")
+            try:
+                row = self._db.execute("SELECT result FROM species WHERE key = ?", (result.key,)).fetchone()
+                stored = json.loads(row[0]).get("E_hartree") if row is not None else None
+                if stored is not None and float(stored) <= result.E_hartree:
+                    self._db.execute("COMMIT")
+                    return False
+                self._db.execute(
+                    "INSERT OR REPLACE INTO species (key, smiles, charge, multiplicity, formula, level, solvent, "
+                    "settings, version, created, result) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                    (result.key, result.smiles, result.charge, result.multiplicity, result.formula, result.level,
+                     result.solvent, settings_json, result.version, _now(), payload))
+                if row is not None and settings is not None:
+                    self._db.execute("DELETE FROM species WHERE smiles = ? AND charge = ? AND multiplicity = ? "
+                                     "AND settings = ? AND key != ? AND level != ? AND version = ?",
+                                     (result.smiles, result.charge, result.multiplicity, settings_json,
+                                      result.key, result.level, result.version))
+                self._db.execute("COMMIT")
+            except BaseException:
+                self._db.execute("ROLLBACK")
+                raise
+            return True
+
+        try:
+            written = bool(self._retry(write))
+        except sqlite3.Error as exc:
+            self.write_error = f"{exc}"
+            raise StoreError(f"cannot write to result store {self.path!r} ({exc})") from None
+        self.writes += int(written)
+        return written
+
     # -- life cycle -------------------------------------------------------------------------
     def close(self) -> None:
         try:

@@ -309,16 +309,21 @@ def _with_solvolysis(ranked: list[dict]) -> list[dict]:
 def attach_shifts(records: list[dict], known: dict, settings: Settings, *, workers: int = 1,
                   store: ResultStore | None = None, progress: Progress | None = None,
                   threshold_kcal_mol: float | None = None,
-                  window_kcal_mol: float | None = DEFAULT_SHIFT_WINDOW_KCAL_MOL) -> list[dict]:
+                  window_kcal_mol: float | None = DEFAULT_SHIFT_WINDOW_KCAL_MOL, computed: dict | None = None,
+                  lowered: dict | None = None) -> list[dict]:
     """New records with a ``shifts`` section: the downhill 1,2-shifts of every cation formed (one shift deep).
 
     Cations already computed for the records (``known``: species → result) are
     reused; only the shift products are new, and of those only the ones at most ``window_kcal_mol`` above
     their cation at the screening level (:mod:`cationcalc.tasks.funnel`; None: all).  Records gain ``shifts`` (the
     flagged shifts, keys as in ``cationcalc shifts``), ``sink_smiles`` and a
-    one-line ``shift_summary``.
+    one-line ``shift_summary``.  ``computed`` (species → result) keeps the shift products between
+    calls; ``lowered`` receives the cations of ``known`` that a product relaxed into below their
+    lowest conformer, recomputed from it (:func:`~cationcalc.execution.lowest.settle_lowest`): the
+    records' values that depend on them are then stale, and the caller finishes them again.
     """
     from cationcalc.execution.executors import compute_many
+    from cationcalc.execution.lowest import settle_lowest
     from cationcalc.tasks.shifts import DEFAULT_THRESHOLD_KCAL_MOL, run_shifts
 
     threshold = DEFAULT_THRESHOLD_KCAL_MOL if threshold_kcal_mol is None else threshold_kcal_mol
@@ -329,17 +334,29 @@ def attach_shifts(records: list[dict], known: dict, settings: Settings, *, worke
     parents = shift_products(cations)
     ctx = {"workers": workers, "progress": progress, "store": store}
 
+    computed = {} if computed is None else computed
+    lowered = {} if lowered is None else lowered
+    tried: set = set()
+
     def compute(species_list):
-        out = {sp: known[sp] for sp in species_list if sp in known}
+        out = {sp: lowered.get(sp, known[sp]) for sp in species_list if sp in known}
+        out.update({sp: computed[sp] for sp in species_list if sp in computed and sp not in out})
         missing = [sp for sp in species_list if sp not in out]
         full, screened = funnel_shift_products(missing, parents, settings, window_kcal_mol, ctx)
         out.update(screened)
         if full:
             out.update(compute_many(full, settings, workers=workers, progress=progress, store=store))
+        computed.update({sp: r for sp, r in out.items() if sp not in known})
         return out
 
+    def settle(cache):
+        new = settle_lowest(cache, settings, store=store, tried=tried)
+        lowered.update({sp: r for sp, r in new.items() if sp in known})
+        computed.update({sp: r for sp, r in new.items() if sp not in known})
+        return new
+
     found = dict(zip(cations, run_shifts([(c, "") for c in cations], settings, depth=1,
-                                         threshold_kcal_mol=threshold, compute=compute)))
+                                         threshold_kcal_mol=threshold, compute=compute, settle=settle)))
     return [_with_shifts(r, found[r.get("cation_smiles")]) if r.get("cation_smiles") in found else r
             for r in records]
 
@@ -508,7 +525,8 @@ def screen_shifts(records: list[dict], options: dict, ctx: StepContext) -> list[
     known = {sp: r for sp, r in ctx.results.items() if not isinstance(r, SpeciesFailure)}
     return attach_shifts(records, known, ctx.settings, workers=ctx.workers, store=ctx.store, progress=ctx.progress,
                          threshold_kcal_mol=options.get("shift_threshold_kcal_mol"),
-                         window_kcal_mol=options.get("shift_window_kcal_mol", DEFAULT_SHIFT_WINDOW_KCAL_MOL))
+                         window_kcal_mol=options.get("shift_window_kcal_mol", DEFAULT_SHIFT_WINDOW_KCAL_MOL),
+                         computed=ctx.computed, lowered=ctx.lowered)
 
 
 _WIDE_SHIFT = ("shift_summary", "downhill 1,2-shift (ΔG)")

@@ -22,7 +22,7 @@ from __future__ import annotations
 import importlib
 import pkgutil
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, Callable
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
@@ -103,6 +103,11 @@ class StepContext:
     store: Any = None
     progress: Any = None
     force: bool = False
+    #: species a step computed beyond the requests (shift products), kept for a second pass of the steps
+    computed: dict = field(default_factory=dict)
+    #: species of ``results`` a step recomputed from a lower structure it found (species → new result):
+    #: the runner then finishes the records again from them
+    lowered: dict = field(default_factory=dict)
 
 
 def with_defaults(model: type[BaseModel], options: dict) -> dict:

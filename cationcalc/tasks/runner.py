@@ -26,6 +26,7 @@ from cationcalc.about import SAFETY_NOTE
 from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE
 from cationcalc.compute.models import Settings
 from cationcalc.execution.executors import Interrupted, Progress, SpeciesFailure, compute_many
+from cationcalc.execution.lowest import settle_lowest
 from cationcalc.execution.store import ResultStore
 from cationcalc.tasks.record_types import Record, typed_records
 from cationcalc.tasks.records import BatchInterrupted, Prepared
@@ -153,20 +154,50 @@ def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, ref
 
 
 def _run(task: TaskSpec, items, settings: Settings, options: dict, ctx: dict) -> list[Record]:
-    """prepare → funnel → compute → finish → refine → collate → further steps → error bars."""
+    """prepare → funnel → compute → finish → refine → collate → further steps → error bars.
+
+    A species a further step recomputed from a lower structure (a shift product that relaxed into
+    its cation below the cation's lowest conformer) replaces its result, and the records are
+    finished again from there (the steps reuse what they computed).
+    """
     groups = [task.prepare(text, name, settings, options, ctx["force"]) for text, name in items]
     if task.funnel is not None:
         groups = task.funnel(groups, settings, options, ctx)
     if options.get("plan_log"):
         options["plan_log"](plan_summary(groups))
     results, interrupted = _compute(groups, settings, {k: ctx[k] for k in ("workers", "progress", "store")})
+    if not interrupted:
+        results.update(settle_lowest(results, settings, store=ctx["store"]))
+    computed: dict = {}
+    for _ in range(MAX_PASSES):
+        step_ctx = StepContext(task.name, settings, results, **ctx, computed=computed)
+        records, refined, interrupted = _records(task, groups, results, settings, options, ctx, step_ctx,
+                                                 interrupted)
+        stale = {sp: r for sp, r in step_ctx.lowered.items() if sp in results}
+        if interrupted or not stale:
+            break
+        results = {**results, **stale}
+    if task.uncertainty is not None:
+        records = _annotate(task, records, settings, options, refined)
+    records = typed_records(task.name, records)  # typed records from here on
+    if interrupted:
+        raise BatchInterrupted(records)
+    return records
+
+
+#: passes of finish → … → further steps: a second one when a step found a lower structure of a species
+MAX_PASSES = 2
+
+
+def _records(task: TaskSpec, groups, results: dict, settings: Settings, options: dict, ctx: dict,
+             step_ctx: StepContext, interrupted: bool) -> tuple[list[dict], bool, bool]:
+    """finish → refine → collate → further steps: (records, refined, interrupted)."""
     finished_groups = [_finish(group, results) for group in groups]
     refined = bool(options.get("refine")) and not interrupted and task.refine is not None
     if refined:
         finished_groups, interrupted = _refine(task, groups, finished_groups, results, settings, options, ctx)
         refined = not interrupted
     records = [r for finished in finished_groups for r in task.collate(finished, settings)]
-    step_ctx = StepContext(task.name, settings, results, **ctx)
     for step in task.after:
         if interrupted:
             break
@@ -174,12 +205,7 @@ def _run(task: TaskSpec, items, settings: Settings, options: dict, ctx: dict) ->
             records = step(records, options, step_ctx)
         except Interrupted:
             interrupted = True
-    if task.uncertainty is not None:
-        records = _annotate(task, records, settings, options, refined)
-    records = typed_records(task.name, records)  # typed records from here on
-    if interrupted:
-        raise BatchInterrupted(records)
-    return records
+    return records, refined, interrupted
 
 
 __all__ = ["run_task", "prepare", "TASKS", "SAFETY_NOTE"]

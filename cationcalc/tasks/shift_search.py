@@ -156,6 +156,16 @@ class ShiftSearch:
             return
         self._plan()
 
+    def refresh(self, results: dict) -> None:
+        """Take new results of species already received (a species recomputed from a lower structure)."""
+        for node in self.nodes.values():
+            new = results.get(_species(node.smiles))
+            if node.ok and isinstance(new, SpeciesResult) and new is not node.result:
+                node.result = new
+                node.relaxed_to, node.bridged = relaxed_target(new)
+                if node.relaxed_to == node.smiles:
+                    node.relaxed_to = None
+
     def stop(self) -> None:
         self.stopped = True
 

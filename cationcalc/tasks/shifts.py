@@ -38,6 +38,7 @@ from cationcalc.chem.shift_graph import KINDS, ShiftCandidate, enumerate_shifts,
 from cationcalc.chem.species import InputError, Species, carbocation
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.execution.executors import Interrupted, Progress, compute_many
+from cationcalc.execution.lowest import settle_lowest
 from cationcalc.execution.store import ResultStore
 from cationcalc.tasks.funnel import ScreenedOut
 from cationcalc.tasks.records import BatchInterrupted, record_base, species_profile
@@ -277,8 +278,22 @@ def _default_compute(settings: Settings, workers: int, progress, store) -> Calla
     return compute
 
 
-def _drive(searches: list[ShiftSearch], compute: Callable[[list[Species]], dict], cache: dict) -> bool:
-    """Run searches in lock-step: one batch of species per round over all inputs. True if interrupted."""
+#: (results of the run so far) → the species recomputed from a lower structure found among them
+Settle = Callable[[dict], dict]
+
+
+def _default_settle(settings: Settings, store: ResultStore | None) -> Settle:
+    tried: set = set()
+    return lambda cache: settle_lowest(cache, settings, store=store, tried=tried)
+
+
+def _drive(searches: list[ShiftSearch], compute: Callable[[list[Species]], dict], cache: dict,
+           settle: Settle = lambda cache: {}) -> bool:
+    """Run searches in lock-step: one batch of species per round over all inputs. True if interrupted.
+
+    After every round ``settle`` may recompute species (a parent a product relaxed into below its
+    lowest conformer); the searches then take the new results.
+    """
     while True:
         wanted = [sp for s in searches for sp in s.requests()]
         if not wanted:
@@ -291,7 +306,11 @@ def _drive(searches: list[ShiftSearch], compute: Callable[[list[Species]], dict]
             except Interrupted as exc:
                 cache.update({k: v for k, v in exc.results.items() if isinstance(v, SpeciesResult)})
                 interrupted = True
+        lowered = {} if interrupted else settle(cache)
+        cache.update(lowered)
         for s in searches:
+            if lowered:
+                s.refresh(lowered)
             if s.requests():
                 s.receive(cache)
         if interrupted:
@@ -306,7 +325,7 @@ def run_shifts(items: Iterable[tuple[str, str]], settings: Settings, *, depth: i
                force: bool = False, progress: Progress | None = None, store: ResultStore | None = None,
                max_species: int = DEFAULT_MAX_SPECIES,
                compute: Callable[[list[Species]], dict] | None = None,
-               barrier_options: dict | None = None) -> list[dict]:
+               barrier_options: dict | None = None, settle: Settle | None = None) -> list[dict]:
     """1,2-shift analysis of each (cation SMILES, name); one record per input, order kept.
 
     ``compute`` (species list → dict of results) defaults to
@@ -315,8 +334,13 @@ def run_shifts(items: Iterable[tuple[str, str]], settings: Settings, *, depth: i
     round is one parallel batch.  With ``barriers`` every flagged and every
     degenerate shift of a parent that is a minimum gets an NEB barrier
     (``barrier_options`` go to :func:`cationcalc.compute.barriers.shift_barrier`).
+    ``settle`` (results so far → species recomputed) defaults to
+    :func:`~cationcalc.execution.lowest.settle_lowest`: a product that relaxes into a cation of
+    the run below that cation's lowest conformer has the cation recomputed with that structure, and
+    every ΔG is taken from the lowest result.
     """
     compute = compute or _default_compute(settings, workers, progress, store)
+    settle = settle or _default_settle(settings, store)
     prepared: list[tuple[dict, ShiftSearch | None, str | None]] = []
     for text, name in items:
         base = record_base(text, name, settings)
@@ -329,7 +353,7 @@ def run_shifts(items: Iterable[tuple[str, str]], settings: Settings, *, depth: i
                                            max_species=max_species), None))
     searches = [s for _, s, _ in prepared if s is not None]
     cache: dict = {}
-    interrupted = _drive(searches, compute, cache)
+    interrupted = _drive(searches, compute, cache, settle)
     records = []
     for base, search, error in prepared:
         if search is None:
