@@ -53,7 +53,7 @@ def main() -> None:
         hits, misses = store.hits, store.misses
         if args.write_calibration:
             cal = checks.calibration_from_report(report, settings)
-            data = Path(calibration.__file__).resolve().parent / "data"
+            data = Path(calibration.__file__).resolve().parents[1] / "data"
             calibration.write_calibrations([cal], data)
             calibration.stored_calibrations.cache_clear()
             report = checks.run_checks(settings, quick=False, workers=args.workers, store=store)

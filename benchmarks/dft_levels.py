@@ -122,6 +122,8 @@ def main(argv=None) -> int:
     parser.add_argument("--geometry", default=None,
                         help="also a DFT//DFT column per level: structures optimised at this level (e.g. "
                              "B3LYP-D3BJ/def2-SVP) before the single point")
+    parser.add_argument("--names", default=None,
+                        help="comma-separated row names of the gas-phase table to compute (default: every comparable row)")
     parser.add_argument("--lock", default=None,
                         help="hold this lock file around each DFT species only (lets other heavy jobs interleave)")
     args = parser.parse_args(argv)
@@ -139,6 +141,13 @@ def main(argv=None) -> int:
     settings = Settings()
     anchor = hia_reference("tert-butyl")
     rows, left_out = comparable_rows()
+    if args.names:
+        wanted = [n.strip() for n in args.names.split(",") if n.strip()]
+        unknown = sorted(set(wanted) - {r["name"] for r in rows})
+        if unknown:
+            parser.error(f"--names: not a comparable row of the gas-phase table: {', '.join(unknown)}")
+        left_out += [(r["name"], "not asked for (--names)") for r in rows if r["name"] not in wanted]
+        rows = [r for r in rows if r["name"] in wanted]
     ref_cation = carbocation(anchor.cation_smiles)
     ref_pair = (Species(ref_cation.smiles, 1, 1), hydride_adduct(ref_cation))
     pairs = {}
