@@ -148,17 +148,23 @@ def fit_linear(x: ArrayLike, y: ArrayLike) -> LinearFit:
     return LinearFit(float(a), float(ym - a * xm), int(x.size), float(r))
 
 
-def loo_predictions(x: ArrayLike, y: ArrayLike) -> np.ndarray:
-    """Leave-one-out predictions: point i predicted by the line fitted without it (explicit refits)."""
+def _leave_one_out(x: ArrayLike, y: ArrayLike, predict) -> np.ndarray:
+    """Point i predicted by ``predict(i, keep)``, a model refitted on the other points only (mask ``keep``)."""
     x = np.asarray(x, dtype=float)
     y = np.asarray(y, dtype=float)
     if x.size < 3:
         raise ValueError("leave-one-out needs at least three points")
     out = np.empty_like(y)
     for i in range(x.size):
-        keep = np.arange(x.size) != i
-        out[i] = fit_linear(x[keep], y[keep]).predict(x[i])
+        out[i] = predict(i, np.arange(x.size) != i)
     return out
+
+
+def loo_predictions(x: ArrayLike, y: ArrayLike) -> np.ndarray:
+    """Leave-one-out predictions: point i predicted by the line fitted without it (explicit refits)."""
+    x = np.asarray(x, dtype=float)
+    y = np.asarray(y, dtype=float)
+    return _leave_one_out(x, y, lambda i, keep: fit_linear(x[keep], y[keep]).predict(x[i]))
 
 
 def class_offsets(x: ArrayLike, y: ArrayLike, groups: list[str], line: LinearFit,
@@ -193,15 +199,13 @@ def loo_class_predictions(x: ArrayLike, y: ArrayLike, groups: list[str]) -> np.n
     """Leave-one-out predictions of the line plus shrunk class offsets (both refitted without the point)."""
     x = np.asarray(x, dtype=float)
     y = np.asarray(y, dtype=float)
-    if x.size < 3:
-        raise ValueError("leave-one-out needs at least three points")
-    out = np.empty_like(y)
-    for i in range(x.size):
-        keep = np.arange(x.size) != i
+
+    def predict(i: int, keep: np.ndarray) -> float:
         kept_groups = [g for j, g in enumerate(groups) if j != i]
         line = fit_linear(x[keep], y[keep])
-        out[i] = line.predict(x[i]) + class_offsets(x[keep], y[keep], kept_groups, line).get(groups[i], 0.0)
-    return out
+        return line.predict(x[i]) + class_offsets(x[keep], y[keep], kept_groups, line).get(groups[i], 0.0)
+
+    return _leave_one_out(x, y, predict)
 
 
 def loo_residuals(x: ArrayLike, y: ArrayLike) -> np.ndarray:
