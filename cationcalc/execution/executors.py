@@ -382,7 +382,8 @@ _SCHEDULER: contextvars.ContextVar = contextvars.ContextVar("cationcalc_schedule
 #: thread pinning for Dask worker processes (the package import sets it too, but a worker
 #: may load numerical libraries before it unpickles its first task)
 _WORKER_ENV = {"OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1", "MKL_NUM_THREADS": "1",
-               "OMP_STACKSIZE": os.environ.get("OMP_STACKSIZE", "256M")}
+               "OMP_STACKSIZE": os.environ.get("OMP_STACKSIZE", "256M"),
+               "MKL_CBWR": os.environ.get("MKL_CBWR", "AUTO")}
 
 
 def _import_distributed():
