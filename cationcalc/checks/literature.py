@@ -203,9 +203,10 @@ def _evaluate_set(rs: ReferenceSet, entries: tuple[Entry, ...], hia: dict[str, d
 def calibration_from_report(report: dict, settings: Settings, *, fit_date: str | None = None) -> Calibration:
     """The calibration (HIA_exp ≈ a·HIA_calc + b) fitted to the gas-HIA set of a full check report."""
     gas = report["sets"]["gas_hia"]
+    verification = {row["name"]: row.get("verification", "") for row in load_table("gas_hydride_ion_affinities")}
     rows = [{"name": r["name"], "cation_smiles": carbocation(r["smiles"]).smiles, "cation_class": r["cation_class"],
              "class_group": r["class_group"], "hia_exp_kcal_mol": r["exp"], "hia_calc_kcal_mol": r["calc"],
-             "status": r["status"], "source": r["source"]}
+             "status": r["status"], "source": r["source"], "verification": verification.get(r["name"], "")}
             for r in gas["entries"] if r.get("calc") is not None and not r.get("excluded_reason")]
     dataset = ("cationcalc/data/gas_hydride_ion_affinities.csv minus the anchor (tert-butyl), the superseded value "
                "and the threshold ions")

@@ -68,7 +68,7 @@ CALIBRATION_COLUMNS = ["id", "method", "engine", "solvent_model", "solvent", "le
                        "class_loo_mae_kcal_mol", "notes"]
 RESIDUAL_COLUMNS = ["calibration_id", "name", "cation_smiles", "cation_class", "class_group", "hia_exp_kcal_mol",
                     "hia_calc_kcal_mol", "raw_residual_kcal_mol", "loo_residual_kcal_mol", "class_loo_residual_kcal_mol",
-                    "status", "source"]
+                    "status", "source", "verification"]
 
 
 def class_group(cls: str, cation_smiles: str | None = None) -> str:
@@ -240,6 +240,8 @@ class Residual:
     source: str = ""
     #: leave-one-out residual of the line plus shrunk class offsets (NaN where not computed)
     class_loo_residual_kcal_mol: float = float("nan")
+    #: how the reference value was checked (from the reference table)
+    verification: str = ""
 
 
 @dataclass(frozen=True)
@@ -340,7 +342,7 @@ def calibration_id(level: str, version: str = __version__) -> str:
 def fit_calibration(rows: list[dict], *, method: str, engine: str, solvent_model: str | None, solvent: str | None,
                     level: str, dataset: str, notes: str = "", fit_date: str | None = None) -> Calibration:
     """Fit HIA_exp ≈ a·HIA_calc + b to rows with keys name, cation_smiles, cation_class, class_group,
-    hia_exp_kcal_mol, hia_calc_kcal_mol (and optionally status, source)."""
+    hia_exp_kcal_mol, hia_calc_kcal_mol (and optionally status, source, verification)."""
     if len(rows) < 3:
         raise ValueError(f"a calibration needs at least three cations, got {len(rows)}")
     calc = np.array([float(r["hia_calc_kcal_mol"]) for r in rows])
@@ -352,7 +354,8 @@ def fit_calibration(rows: list[dict], *, method: str, engine: str, solvent_model
     raw_stats, loo_stats = error_statistics(raw), error_statistics(loo)
     residuals = tuple(Residual(r["name"], r["cation_smiles"], r.get("cation_class", ""), r["class_group"],
                                float(r["hia_exp_kcal_mol"]), float(r["hia_calc_kcal_mol"]), float(raw[i]),
-                               float(loo[i]), r.get("status", ""), r.get("source", ""), float(class_loo[i]))
+                               float(loo[i]), r.get("status", ""), r.get("source", ""), float(class_loo[i]),
+                               r.get("verification", ""))
                       for i, r in enumerate(rows))
     return Calibration(id=calibration_id(level), method=method, engine=engine, solvent_model=solvent_model or "none",
                        solvent=solvent or "none", level=level, package_version=__version__,
@@ -406,7 +409,7 @@ def _parse(rows: list[dict], residual_rows: list[dict]) -> list[Calibration]:
             Residual(r["name"], r["cation_smiles"], r["cation_class"], r["class_group"], float(r["hia_exp_kcal_mol"]),
                      float(r["hia_calc_kcal_mol"]), float(r["raw_residual_kcal_mol"]),
                      float(r["loo_residual_kcal_mol"]), r.get("status", ""), r.get("source", ""),
-                     _float(r.get("class_loo_residual_kcal_mol")))
+                     _float(r.get("class_loo_residual_kcal_mol")), r.get("verification", ""))
             for r in residual_rows if r["calibration_id"] == row["id"])
         values = {k: (_float(v) if k in _FLOATS else int(v) if k == "n" else v) for k, v in row.items()}
         out.append(Calibration(**values, residuals=residuals))
