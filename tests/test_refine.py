@@ -322,6 +322,7 @@ def test_analytic_dft_gradient_matches_finite_differences_with_dispersion():
         assert gradient[atom, axis] == pytest.approx(numeric, abs=2e-5)
 
 
+@pytest.mark.slow  # a GFN2-xTB species and a DFT optimisation of 2-propyl
 def test_dft_geometry_lowers_the_energy_at_its_own_level_and_is_labelled():
     # a structure optimised at the single point's own level cannot lie above the GFN2-xTB structure at that
     # level (variational minimum; common practice, no source); measured for 2-propyl at B3LYP-D3BJ/def2-SVP:
