@@ -110,6 +110,11 @@ def _now() -> str:
     return _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat()
 
 
+#: the columns and placeholders of one species row (after INSERT OR IGNORE / OR REPLACE)
+_SPECIES_INSERT = ("INTO species (key, smiles, charge, multiplicity, formula, level, solvent, settings, version, "
+                   "created, result) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
+
+
 class ResultStore:
     """SQLite store of :class:`SpeciesResult` rows; ``hits``/``misses`` count look-ups.
 
@@ -265,31 +270,10 @@ class ResultStore:
     # -- writing ----------------------------------------------------------------------------
     def put(self, result: SpeciesResult, settings: Settings | None = None) -> bool:
         """Store one result in its own transaction; False when the key was already there."""
-        payload = result.model_dump_json()
-        settings_json = json.dumps(settings.model_dump(mode="json"), sort_keys=True) if settings else "{}"
-        self.touched.setdefault(result.key, None)
+        def insert(row: tuple) -> bool:
+            return self._db.execute(f"INSERT OR IGNORE {_SPECIES_INSERT}", row).rowcount == 1
 
-        def write() -> int:
-            self._db.execute("BEGIN IMMEDIATE")
-            try:
-                cursor = self._db.execute(
-                    "INSERT OR IGNORE INTO species (key, smiles, charge, multiplicity, formula, level, solvent, "
-                    "settings, version, created, result) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-                    (result.key, result.smiles, result.charge, result.multiplicity, result.formula, result.level,
-                     result.solvent, settings_json, result.version, _now(), payload))
-                self._db.execute("COMMIT")
-            except BaseException:
-                self._db.execute("ROLLBACK")
-                raise
-            return cursor.rowcount
-
-        try:
-            inserted = self._retry(write) == 1
-        except sqlite3.Error as exc:  # disk full, file made read-only, removed ...
-            self.write_error = f"{exc}"
-            raise StoreError(f"cannot write to result store {self.path!r} ({exc})") from None
-        self.writes += int(inserted)
-        return inserted
+        return self._write(result, settings, insert)
 
     def put_lower(self, result: SpeciesResult, settings: Settings | None = None) -> bool:
         """Store ``result`` unless the stored row of its key is as low or lower (E); True when written.
@@ -298,37 +282,42 @@ class ResultStore:
         derived from the old structure (same species, settings and version at another level: its DFT
         single points) are removed, to be recomputed on the new structure.
         """
-        payload = result.model_dump_json()
+        def replace(row: tuple) -> bool:
+            old = self._db.execute("SELECT result FROM species WHERE key = ?", (result.key,)).fetchone()
+            stored = json.loads(old[0]).get("E_hartree") if old is not None else None
+            if stored is not None and float(stored) <= result.E_hartree:
+                return False
+            self._db.execute(f"INSERT OR REPLACE {_SPECIES_INSERT}", row)
+            if old is not None and settings is not None:
+                self._db.execute("DELETE FROM species WHERE smiles = ? AND charge = ? AND multiplicity = ? "
+                                 "AND settings = ? AND key != ? AND level != ? AND version = ?",
+                                 (result.smiles, result.charge, result.multiplicity, row[7],
+                                  result.key, result.level, result.version))
+            return True
+
+        return self._write(result, settings, replace)
+
+    def _write(self, result: SpeciesResult, settings: Settings | None, body) -> bool:
+        """Run ``body(row)`` for the species row of ``result`` in one retried transaction; its answer is whether
+        a row was written.  A failing store raises StoreError and keeps the reason in ``write_error``."""
         settings_json = json.dumps(settings.model_dump(mode="json"), sort_keys=True) if settings else "{}"
+        row = (result.key, result.smiles, result.charge, result.multiplicity, result.formula, result.level,
+               result.solvent, settings_json, result.version, _now(), result.model_dump_json())
         self.touched.setdefault(result.key, None)
 
-        def write() -> bool:
+        def transaction() -> bool:
             self._db.execute("BEGIN IMMEDIATE")
             try:
-                row = self._db.execute("SELECT result FROM species WHERE key = ?", (result.key,)).fetchone()
-                stored = json.loads(row[0]).get("E_hartree") if row is not None else None
-                if stored is not None and float(stored) <= result.E_hartree:
-                    self._db.execute("COMMIT")
-                    return False
-                self._db.execute(
-                    "INSERT OR REPLACE INTO species (key, smiles, charge, multiplicity, formula, level, solvent, "
-                    "settings, version, created, result) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-                    (result.key, result.smiles, result.charge, result.multiplicity, result.formula, result.level,
-                     result.solvent, settings_json, result.version, _now(), payload))
-                if row is not None and settings is not None:
-                    self._db.execute("DELETE FROM species WHERE smiles = ? AND charge = ? AND multiplicity = ? "
-                                     "AND settings = ? AND key != ? AND level != ? AND version = ?",
-                                     (result.smiles, result.charge, result.multiplicity, settings_json,
-                                      result.key, result.level, result.version))
+                written = bool(body(row))
                 self._db.execute("COMMIT")
             except BaseException:
                 self._db.execute("ROLLBACK")
                 raise
-            return True
+            return written
 
         try:
-            written = bool(self._retry(write))
-        except sqlite3.Error as exc:
+            written = bool(self._retry(transaction))
+        except sqlite3.Error as exc:  # disk full, file made read-only, removed ...
             self.write_error = f"{exc}"
             raise StoreError(f"cannot write to result store {self.path!r} ({exc})") from None
         self.writes += int(written)
