@@ -12,6 +12,10 @@ is what is measured).  A species whose default minimum is more than
 products that relax back into their parent below it are counted.
 
     python benchmarks/conformer_misses.py [--name conformer_misses] [--shifts] [--quick]
+    python benchmarks/conformer_misses.py --search n_optimize=6 --reuse results/conformer_misses_full.json
+
+The second form measures a candidate search against the large searches of an
+earlier run (only the candidate's own gradients are spent).
 
 Prints one line per species and the totals; writes benchmarks/results/<name>.json.
 """
@@ -96,11 +100,18 @@ def search(sp: Species, conformers: ConformerSettings) -> dict:
             "gradients": sum(result.profile.gradients.values()), "wall_s": wall, "n_embedded": result.n_embedded}
 
 
-def measure(items: dict[str, Species], default: ConformerSettings, miss: float) -> list[dict]:
+def measure(items: dict[str, Species], default: ConformerSettings, miss: float,
+            reuse: dict[str, list[dict]] | None = None) -> list[dict]:
+    """Each species: the searched minimum against the best of the large searches (``reuse``: large searches of
+    an earlier run, keyed by SMILES|charge, so another candidate search costs only its own gradients)."""
     rows = []
     for name, sp in items.items():
         base = search(sp, default)
-        large = [search(sp, ConformerSettings(**LARGE, seed=seed)) for seed in LARGE_SEEDS]
+        key = f"{sp.smiles}|{sp.charge}"
+        if reuse is not None and key in reuse:
+            large = reuse[key]
+        else:
+            large = [search(sp, ConformerSettings(**LARGE, seed=seed)) for seed in LARGE_SEEDS]
         energies = [r["E_kcal_mol"] for r in [base, *large] if r["E_kcal_mol"] is not None]
         row = {"name": name, "smiles": sp.smiles, "charge": sp.charge, "default": base, "large": large}
         if base["E_kcal_mol"] is not None and energies:
@@ -112,12 +123,12 @@ def measure(items: dict[str, Species], default: ConformerSettings, miss: float) 
     return rows
 
 
-def shift_returns(items: dict[str, Species], miss: float) -> list[dict]:
-    """Shift products (depth 1, default settings without Hessians) that relax back into their parent below it."""
+def shift_returns(items: dict[str, Species], miss: float, conformers: ConformerSettings) -> list[dict]:
+    """Shift products (depth 1, the searched settings without Hessians) that relax back into their parent below it."""
     from cationcalc.tasks.shifts import run_shifts
     from cationcalc.execution.executors import compute_many
 
-    settings = energy_only(ConformerSettings())
+    settings = energy_only(conformers)
     cations = [sp for sp in items.values() if sp.charge == 1]
     seen: dict = {}
 
@@ -154,18 +165,34 @@ def summary(rows: list[dict], returns: list[dict] | None, miss: float) -> dict:
     return out
 
 
+def _field(text: str) -> tuple[str, float | int]:
+    name, _, value = text.partition("=")
+    if not value:
+        raise SystemExit(f"--search {text!r}: write FIELD=VALUE, e.g. n_optimize=6")
+    return name, float(value) if "." in value else int(value)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--name", default="conformer_misses")
     parser.add_argument("--miss", type=float, default=0.5, help="kcal/mol above the best that counts as a miss")
     parser.add_argument("--shifts", action="store_true", help="also count shift products below their parent")
     parser.add_argument("--quick", action="store_true", help="every fourth species only")
+    parser.add_argument("--search", nargs="*", default=[], metavar="FIELD=VALUE",
+                        help="a candidate search instead of the default (ConformerSettings fields, e.g. n_optimize=6)")
+    parser.add_argument("--reuse", default=None, metavar="JSON",
+                        help="take the large searches from this earlier result (only the candidate search runs)")
     args = parser.parse_args()
     items = benchmark_species(args.quick)
-    default = ConformerSettings()
-    rows = measure(items, default, args.miss)
-    returns = shift_returns(items, args.miss) if args.shifts else None
-    result = {"machine": machine(), "default_conformers": default.model_dump(), "large": LARGE,
+    default = ConformerSettings(**dict(_field(f) for f in args.search))
+    reuse = None
+    if args.reuse:
+        saved = json.loads(Path(args.reuse).read_text(encoding="utf-8"))
+        reuse = {f"{r['smiles']}|{r['charge']}": r["large"] for r in saved["rows"]}
+    rows = measure(items, default, args.miss, reuse)
+    returns = shift_returns(items, args.miss, default) if args.shifts else None
+    result = {"machine": machine(), "default_conformers": default.model_dump(), "searched": args.search or "default",
+              "large_from": args.reuse or "this run", "large": LARGE,
               "large_seeds": LARGE_SEEDS, "summary": summary(rows, returns, args.miss), "rows": rows}
     s = result["summary"]
     print(f"\nmisses > {args.miss} kcal/mol: {s['misses']}/{s['judged']} ({', '.join(s['missed']) or 'none'}); "

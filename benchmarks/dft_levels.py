@@ -69,7 +69,7 @@ def comparable_rows() -> tuple[list[dict], list[tuple[str, str]]]:
         if "threshold" in name or "not a minimum" in notes:
             left_out.append((name, "threshold ion: not a minimum, rearranges on optimization"))
         elif "superseded" in notes:
-            left_out.append((name, "superseded value; must not be mixed with the 1993 anchor"))
+            left_out.append((name, "superseded value (a later measurement replaces it)"))
         elif name.startswith("tert-butyl"):
             left_out.append((name, "the anchor of the hydride exchange (zero error by construction)"))
         elif name in EXCLUDED_NAMES:

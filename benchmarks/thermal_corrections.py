@@ -8,7 +8,9 @@ computed, and the ideal-gas quasi-RRHO thermochemistry is evaluated exactly as
 the pipeline does (same point group, symmetry number, temperature, pressure
 and quasi-RRHO settings).  The thermal part of the HIA,
 
-    δ_thermal = [H − E](R–H) − [H − E](R⁺) − ([H − E](anchor–H) − [H − E](anchor⁺)),
+    δ_thermal = [H − E](R⁺) − [H − E](R–H) − ([H − E](anchor⁺) − [H − E](anchor–H)),
+
+(the H⁻ terms cancel in the exchange; δ_thermal enters the HIA with a plus sign)
 
 is compared between the GFN2-xTB Hessian (the stored GFN2-xTB result) and the
 DFT Hessian; their difference is what the DFT//xTB composite gets wrong by
@@ -128,12 +130,13 @@ def main(argv=None) -> int:
 
 
 def thermal_table(pairs: dict, done: dict) -> list[dict]:
-    """Per cation: the thermal part of its HIA from each Hessian, relative to the anchor pair, and the difference."""
+    """Per cation: the thermal part of its HIA (cation minus adduct, minus the same for the anchor pair) from
+    each Hessian, and the change of the HIA when the DFT Hessian replaces the GFN2-xTB one."""
     def part(pair, source, quantity):
         cation, adduct = (done.get(f"{sp.smiles}|{sp.charge}") for sp in pair)
         if cation is None or adduct is None:
             return None
-        return adduct[source][quantity] - cation[source][quantity]
+        return cation[source][quantity] - adduct[source][quantity]
 
     anchor = pairs["tert-butyl (anchor)"]
     out = []
@@ -153,7 +156,7 @@ def thermal_table(pairs: dict, done: dict) -> list[dict]:
 
 def markdown(saved: dict) -> str:
     lines = ["# Thermal corrections: GFN2-xTB Hessian against a DFT Hessian", "",
-             f"Thermal part of the isodesmic HIA (adduct minus cation, minus the same for the tert-butyl anchor "
+             f"Thermal part of the isodesmic HIA (cation minus adduct, minus the same for the tert-butyl anchor "
              f"pair), kcal/mol, 298.15 K, quasi-RRHO as in the pipeline; DFT: {saved['level']} geometry and "
              f"central-difference Hessian of analytic gradients; {saved['date']}.", "",
              "| cation | Δ(H−E) GFN2-xTB | Δ(H−E) DFT | change of the HIA | ΔZPE GFN2-xTB | ΔZPE DFT |",

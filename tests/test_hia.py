@@ -30,7 +30,7 @@ ROWS = {row["name"]: row for row in load_table("gas_hydride_ion_affinities")}
 CASES = {
     "methyl": "[CH3+]",                                # Houle and Beauchamp, JACS 101, 4067 (1979)
     "ethyl": "C[CH2+]",                                # Houle and Beauchamp 1979
-    "2-propyl": "C[CH+]C",                             # Houle and Beauchamp 1979
+    "2-propyl": "C[CH+]C",                             # iPEPICO, J. Phys. Chem. A 114, 11285 (2010)
     "allyl": "C=C[CH2+]",                              # TPEPICO allyl study, J. Phys. Chem. A 113, 10710 (2009)
     "acetyl (ATcT-based acetaldehyde)": "CC#[O+]",     # Fogleman et al., J. Phys. Chem. A 108, 5288 (2004)
     "1-adamantyl": "[C+]12CC3CC(CC(C3)C1)C2",          # Li and Baer, J. Phys. Chem. A 106, 272 (2002)
@@ -53,8 +53,8 @@ def test_every_case_computed(records):
 
 
 def test_hyperconjugation_order_methyl_ethyl_2propyl_tbutyl(records, gas):
-    # experiment: methyl 314.4 > ethyl 274.0 > 2-propyl 247.0 > tert-butyl 236.7 (Houle and Beauchamp 1979;
-    # Keister, Riley and Baer 1993)
+    # experiment: methyl 314.4 > ethyl 274.0 > 2-propyl 252.3 > tert-butyl 236.7 (methyl, ethyl: Houle and
+    # Beauchamp 1979; 2-propyl: J. Phys. Chem. A 2010, 114, 11285; Keister, Riley and Baer 1993)
     tbu = run_task("hia", [("C[C+](C)C", "tert-butyl")], gas)[0]["hia_kcal_mol"]
     values = [records["methyl"]["hia_kcal_mol"], records["ethyl"]["hia_kcal_mol"],
               records["2-propyl"]["hia_kcal_mol"], tbu]

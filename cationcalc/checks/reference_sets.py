@@ -23,7 +23,7 @@ Example
 >>> sets["gas_hia"].kind, len(sets["gas_hia"].entries) >= 10
 ('absolute', True)
 >>> [e.name for e in sets["gas_hia"].excluded][:2]
-['1-propyl (threshold ion)', 'isobutyl (threshold ion)']
+['1-propyl (threshold ion)', '2-propyl (1979 value)']
 >>> sets["sigma_benzyl"].expected_sign
 1
 >>> sets["sigma_benzyl_solution"].medium, sets["sigma_benzyl"].medium
@@ -42,6 +42,8 @@ from cationcalc.trust.uncertainty import ANCHOR_SMILES
 
 KEISTER_1993 = "Keister, J. W.; Riley, J. S.; Baer, T. J. Am. Chem. Soc. 1993, 115, 12613"
 HOULE_1979 = "Houle, F. A.; Beauchamp, J. L. J. Am. Chem. Soc. 1979, 101, 4067"
+#: the 2-propyl cation's heat of formation (iPEPICO; replaces the 1979 value)
+IPEPICO_2010 = "J. Phys. Chem. A 2010, 114, 11285 (iPEPICO heat of formation of i-C3H7+)"
 TORMA_2019 = "Torma, K. G.; Voronova, K.; Sztaray, B.; Bodi, A. J. Phys. Chem. A 2019, 123"
 LIAS_1988 = "Lias, S. G. et al. J. Phys. Chem. Ref. Data 1988, 17, Suppl. 1"
 BROWN_OKAMOTO = "Brown, H. C.; Okamoto, Y. J. Am. Chem. Soc. 1958, 80, 4979"
@@ -82,7 +84,8 @@ def _gas_hia_set() -> ReferenceSet:
     """Gas-phase HIA rows that enter statistics and calibration.
 
     Left out: tert-butyl (the anchor of the hydride exchange, exact by
-    construction; its 1979 value is superseded) and the threshold-ion rows
+    construction), superseded values (the 1979 tert-butyl and 2-propyl
+    figures, each replaced by a threshold-coincidence value) and the threshold-ion rows
     (1-propyl, isobutyl, neopentyl: those cations are not minima).  Kept: the
     0 K photoionization onsets of benzyl and tropylium (they differ from 298 K
     values by 1–2 kcal/mol, far below the method error).  Every row's heats of
@@ -98,9 +101,10 @@ def _gas_hia_set() -> ReferenceSet:
                       f"T = {row['T_K']} K" + (f"; {row['notes']}" if row.get("notes") else ""))
         if "threshold" in name or "not a minimum" in notes:
             excluded.append(Entry(**{**asdict(entry), "note": "threshold ion: not a minimum"}))
+        elif "superseded" in notes:
+            excluded.append(Entry(**{**asdict(entry), "note": "superseded value (a later measurement replaces it)"}))
         elif Chem.CanonSmiles(row["cation_smiles"]) == Chem.CanonSmiles(ANCHOR_SMILES):
-            reason = "superseded 1979 value" if "superseded" in notes else "anchor of the hydride exchange (exact by construction)"
-            excluded.append(Entry(**{**asdict(entry), "note": reason}))
+            excluded.append(Entry(**{**asdict(entry), "note": "anchor of the hydride exchange (exact by construction)"}))
         else:
             entries.append(entry)
     return ReferenceSet(
@@ -257,4 +261,4 @@ ISOMERS = {
 
 
 __all__ = ["Entry", "ReferenceSet", "reference_sets", "SIGMA_PLUS_MEDIUM", "cumyl_smiles", "alcohol_smiles", "TREND_CATIONS", "ISOMERS",
-           "ANCHOR_SMILES", "KEISTER_1993", "HOULE_1979", "TORMA_2019", "LIAS_1988", "BROWN_OKAMOTO"]
+           "ANCHOR_SMILES", "KEISTER_1993", "HOULE_1979", "IPEPICO_2010", "TORMA_2019", "LIAS_1988", "BROWN_OKAMOTO"]

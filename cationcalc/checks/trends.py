@@ -15,8 +15,8 @@ Example
 
 from __future__ import annotations
 
-from cationcalc.checks.reference_sets import (BROWN_OKAMOTO, HOULE_1979, ISOMERS, KEISTER_1993, LIAS_1988,
-                                              SIGMA_PLUS_MEDIUM, TORMA_2019, TREND_CATIONS)
+from cationcalc.checks.reference_sets import (BROWN_OKAMOTO, HOULE_1979, IPEPICO_2010, ISOMERS, KEISTER_1993,
+                                              LIAS_1988, SIGMA_PLUS_MEDIUM, TORMA_2019, TREND_CATIONS)
 from cationcalc.chem.species import carbocation
 
 
@@ -64,7 +64,7 @@ def _substitution_trends(h: dict[str, float | None], gas_table: dict[str, float]
         "hyperconjugation", "HIA methyl > ethyl > 2-propyl > tert-butyl",
         " > ".join(_fmt(v) for v in series),
         f"{gas_table['methyl']} > {gas_table['ethyl']} > {gas_table['2-propyl']} > 236.7",
-        f"{HOULE_1979}; {KEISTER_1993}", _order(series))]
+        f"methyl, ethyl: {HOULE_1979}; 2-propyl: {IPEPICO_2010}; {KEISTER_1993}", _order(series))]
     for name, partner in (("1-phenylethyl", "2-propyl"), ("1-methylallyl", "2-propyl"), ("cumyl", "tert-butyl")):
         a, b = h[name], h[partner]
         out.append(_trend(
@@ -89,7 +89,7 @@ def _benzyl_trends(h: dict[str, float | None], gas_table: dict[str, float]) -> l
         "benzyl vs 2-propyl", "HIA benzyl < 2-propyl",
         f"{_fmt(a)} vs {_fmt(b)} (gap {_fmt(None if a is None or b is None else b - a)})",
         f"{gas_table['benzyl (0 K, onset)']} vs {gas_table['2-propyl']} (gap {exp_gap:.1f})",
-        f"{TORMA_2019}; {HOULE_1979}", None if a is None or b is None else a < b,
+        f"{TORMA_2019}; {IPEPICO_2010}", None if a is None or b is None else a < b,
         "GFN2-xTB compresses this gap (benzyl is overestimated more than 2-propyl)"))
     return out
 
@@ -126,7 +126,7 @@ def _unsaturated_cation_trends(h: dict[str, float | None], gas_table: dict[str, 
         out.append(_trend(
             f"σ cation: {name} vs 2-propyl", f"HIA {name} > 2-propyl",
             f"{_fmt(a)} vs {_fmt(b)}", {"vinyl": "≈289", "phenyl": "≈287"}[name] + f" vs {gas_table['2-propyl']}",
-            f"{LIAS_1988}; 2-propyl: {HOULE_1979}",
+            f"{LIAS_1988}; 2-propyl: {IPEPICO_2010}",
             None if a is None or b is None else a > b, status="recalled"))
     a, b = h["2-propenyl"], h["allyl"]
     out.append(_trend(

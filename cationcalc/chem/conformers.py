@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
 from rdkit import Chem
-from rdkit.Chem import AllChem, rdMolDescriptors
+from rdkit.Chem import AllChem, rdMolDescriptors, rdMolTransforms
 
 
 class ConformerSettings(BaseModel):
@@ -37,6 +37,10 @@ class ConformerSettings(BaseModel):
     seed: int = Field(20261202, description="ETKDG random seed (fixed: runs are reproducible)")
     n_optimize: int = Field(3, ge=1, description="lowest single-point conformers optimised with GFN2-xTB")
     window_kcal_mol: float = Field(3.0, ge=0.0, description="energy window of the Boltzmann ensemble")
+    centre_torsion_steps: int = Field(
+        0, ge=0, le=11, description="carbocations: extra starting structures for each open-chain bond of the "
+        "cationic carbon, turned by 1..n equal steps of 120°/(n+1) from the first embedded conformers (the "
+        "alignment of a neighbouring C–C or C–H bond with the empty p orbital decides hyperconjugation); 0: none")
 
     def count_for(self, n_rotatable: int) -> int:
         return max(1, min(self.max_conformers, self.base + self.per_rotor * n_rotatable))
@@ -88,13 +92,51 @@ def embed_conformers(smiles: str, settings: ConformerSettings = ConformerSetting
         conf_ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=settings.count_for(n_rot), params=params))
     if conf_ids:
         _force_field_clean(mol, conf_ids)
-        return mol, [np.array(mol.GetConformer(cid).GetPositions(), dtype=float) for cid in conf_ids]
+        geometries = [np.array(mol.GetConformer(cid).GetPositions(), dtype=float) for cid in conf_ids]
+        return mol, geometries + centre_torsion_seeds(mol, conf_ids, settings.centre_torsion_steps)
     # a planar carbenium centre inside a cage (1-adamantyl, bridgehead cations) defeats the
     # embedding's sp2 constraints: embed the hydride adduct and take the extra hydrogen away
     geometries = _embed_through_adduct(mol, settings.count_for(n_rot), params)
     if not geometries:
         raise RuntimeError(f"RDKit could not embed 3-D coordinates for {smiles!r}")
     return mol, geometries
+
+
+#: embedded conformers that the centre torsion seeds start from
+TORSION_SEED_BASES = 2
+
+
+def centre_torsion_seeds(mol: Chem.Mol, conf_ids: list[int], steps: int) -> list[np.ndarray]:
+    """Rigid rotations about each open-chain bond of a cationic carbon: ``steps`` turns of 120°/(steps+1).
+
+    >>> mol = with_hydrogens("CC[C+](C)C")
+    >>> ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=1, randomSeed=7))
+    >>> len(centre_torsion_seeds(mol, ids, 3))  # three bonds to sp3 carbons, three turns each
+    9
+    """
+    if steps <= 0:
+        return []
+    centres = [a for a in mol.GetAtoms() if a.GetSymbol() == "C" and a.GetFormalCharge() == 1]
+    dihedrals = []
+    for centre in centres:
+        for bond in centre.GetBonds():
+            other = bond.GetOtherAtom(centre)
+            if bond.IsInRing() or bond.GetBondType() != Chem.BondType.SINGLE or other.GetDegree() < 2:
+                continue
+            i = next((n.GetIdx() for n in centre.GetNeighbors() if n.GetIdx() != other.GetIdx()), None)
+            l_ = next((n.GetIdx() for n in other.GetNeighbors() if n.GetIdx() != centre.GetIdx()), None)
+            if i is not None and l_ is not None:
+                dihedrals.append((i, centre.GetIdx(), other.GetIdx(), l_))
+    seeds = []
+    for cid in list(conf_ids)[:TORSION_SEED_BASES]:
+        for quad in dihedrals:
+            start = rdMolTransforms.GetDihedralDeg(mol.GetConformer(cid), *quad)
+            for k in range(1, steps + 1):
+                turned = Chem.Mol(mol, confId=cid)  # a copy holding this conformer only
+                conf = turned.GetConformer()
+                rdMolTransforms.SetDihedralDeg(conf, *quad, start + k * 120.0 / (steps + 1))
+                seeds.append(np.array(conf.GetPositions(), dtype=float))
+    return seeds
 
 
 def _embed_through_adduct(mol: Chem.Mol, count: int, params) -> list[np.ndarray]:

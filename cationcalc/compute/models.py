@@ -142,6 +142,8 @@ class Settings(BaseModel):
 #: settings added after results were first stored, with the value that reproduces what was computed before
 #: they existed: at that value a setting stays out of the store key, so stored results keep their keys
 KEY_NEUTRAL_SETTINGS = {"hessian_conformers": "all"}
+#: conformer settings added later whose value here reproduces the earlier search (left out of the key)
+KEY_NEUTRAL_CONFORMER_SETTINGS = {"centre_torsion_steps": 0}
 #: force threshold (eV/Å) of the screening optimisation (loose: a ranking, not a final structure)
 SCREENING_FMAX = 0.05
 
@@ -152,6 +154,9 @@ def species_key(smiles: str, charge: int, multiplicity: int, settings: Settings)
     for name, neutral in KEY_NEUTRAL_SETTINGS.items():
         if dumped.get(name) == neutral:
             del dumped[name]
+    for name, neutral in KEY_NEUTRAL_CONFORMER_SETTINGS.items():
+        if dumped.get("conformers", {}).get(name) == neutral:
+            del dumped["conformers"][name]
     payload = {
         "smiles": smiles, "charge": int(charge), "multiplicity": int(multiplicity),
         "settings": dumped, "version": __version__,
