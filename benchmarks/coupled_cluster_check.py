@@ -35,12 +35,11 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
 from cationcalc.chem.reference import hia_reference, load_table  # noqa: E402
-from cationcalc.chem.species import Species, carbocation, hydride_adduct  # noqa: E402
 from cationcalc.compute.models import Settings  # noqa: E402
 from cationcalc.compute.properties import hydride_ion_affinity  # noqa: E402
 from cationcalc.execution.executors import SpeciesFailure, compute_many  # noqa: E402
 
-from dft_levels import held  # noqa: E402
+from dft_levels import held, hydride_pair, resumable  # noqa: E402
 
 ANCHOR = "methyl"
 DFT_LEVEL = "wB97X-D3BJ/def2-TZVP"
@@ -94,16 +93,12 @@ def main(argv=None) -> int:
     from cationcalc.execution.store import ResultStore
 
     out_json, out_md = Path(args.output + ".json"), Path(args.output + ".md")
-    saved = json.loads(out_json.read_text()) if out_json.exists() else {}
-    saved.setdefault("ccsd_t", {})
+    saved = resumable(out_json, "ccsd_t")
     settings = Settings()
     table = {r["name"]: r for r in load_table("gas_hydride_ion_affinities")}
     anchor = hia_reference(ANCHOR)
     names = [n.strip() for n in args.rows.split(",") if n.strip()]
-    pairs = {}
-    for name in [ANCHOR, *names]:
-        cation = carbocation(table[name]["cation_smiles"])
-        pairs[name] = (Species(cation.smiles, 1, 1), hydride_adduct(cation))
+    pairs = {name: hydride_pair(table[name]["cation_smiles"]) for name in [ANCHOR, *names]}
     species = list(dict.fromkeys(sp for pair in pairs.values() for sp in pair))
     with held(args.lock):
         xtb = compute_many(species, settings, workers=1, store=ResultStore(args.store) if args.store else None)
@@ -158,6 +153,15 @@ def markdown(saved: dict, columns: list[str]) -> str:
         lines.append(f"| {r['cation']} | {r['exp']} | "
                      + " | ".join(f"{r[c]:.1f} ({r[f'error {c}']:+.1f})" for c in columns) + " |")
     lines.append("| MAE | | " + " | ".join(f"{saved['mae'][c]:.1f}" for c in columns) + " |")
+    base = next((r for r in saved["rows"] if r["cation"] == "2-propyl"), None)
+    if base is not None:
+        lines += ["", "The same errors relative to 2-propyl's (the methyl anchor taken out: what the exchange "
+                  "X⁺ + propane → XH + 2-propyl⁺ gets wrong):", "",
+                  "| cation | " + " | ".join(columns) + " |", "|---|" + "---|" * len(columns)]
+        for r in saved["rows"]:
+            if r is not base:
+                lines.append(f"| {r['cation']} | " + " | ".join(
+                    f"{r[f'error {c}'] - base[f'error {c}']:+.1f}" for c in columns) + " |")
     cost = saved["ccsd_t"]
     lines += ["", "CCSD(T) cost: " + ", ".join(f"{k.split('|')[0]} {v['n_basis']} bf {v['seconds']:.0f} s"
                                                for k, v in cost.items()) + "."]

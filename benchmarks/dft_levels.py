@@ -79,6 +79,19 @@ def comparable_rows() -> tuple[list[dict], list[tuple[str, str]]]:
     return keep, left_out
 
 
+def hydride_pair(cation_smiles: str) -> tuple[Species, Species]:
+    """A cation of the table (singlet) and its hydride adduct, as species."""
+    cation = carbocation(cation_smiles)
+    return Species(cation.smiles, 1, 1), hydride_adduct(cation)
+
+
+def resumable(path: Path, section: str) -> dict:
+    """The result saved at ``path`` (empty when there is none yet), with ``section`` present."""
+    saved = json.loads(path.read_text()) if path.exists() else {}
+    saved.setdefault(section, {})
+    return saved
+
+
 @contextlib.contextmanager
 def held(lock_path: str | None):
     """An exclusive lock on ``lock_path`` for the duration (nothing without a path)."""
@@ -148,12 +161,8 @@ def main(argv=None) -> int:
             parser.error(f"--names: not a comparable row of the gas-phase table: {', '.join(unknown)}")
         left_out += [(r["name"], "not asked for (--names)") for r in rows if r["name"] not in wanted]
         rows = [r for r in rows if r["name"] in wanted]
-    ref_cation = carbocation(anchor.cation_smiles)
-    ref_pair = (Species(ref_cation.smiles, 1, 1), hydride_adduct(ref_cation))
-    pairs = {}
-    for row in rows:
-        cation = carbocation(row["cation_smiles"])
-        pairs[row["name"]] = (Species(cation.smiles, 1, 1), hydride_adduct(cation))
+    ref_pair = hydride_pair(anchor.cation_smiles)
+    pairs = {row["name"]: hydride_pair(row["cation_smiles"]) for row in rows}
     species = list(dict.fromkeys([*ref_pair, *(sp for pair in pairs.values() for sp in pair)]))
 
     store = ResultStore(args.store)

@@ -37,7 +37,6 @@ sys.path.insert(0, str(HERE.parent))
 
 from cationcalc.chem import thermo, units  # noqa: E402
 from cationcalc.chem.reference import hia_reference, load_table  # noqa: E402
-from cationcalc.chem.species import Species, carbocation, hydride_adduct  # noqa: E402
 from cationcalc.chem.symmetry import point_group  # noqa: E402
 from cationcalc.compute.hessian import numerical_hessian  # noqa: E402
 from cationcalc.compute.models import Settings  # noqa: E402
@@ -46,7 +45,7 @@ from cationcalc.engines.pyscf_engine import DFTEngine  # noqa: E402
 from cationcalc.execution.executors import SpeciesFailure, compute_many  # noqa: E402
 from cationcalc.execution.refine import parse_level  # noqa: E402
 
-from dft_levels import held  # noqa: E402
+from dft_levels import held, hydride_pair, resumable  # noqa: E402
 
 #: the smallest rows of the gas-phase set (a DFT Hessian costs 6N gradients)
 DEFAULT_ROWS = ("methyl", "ethyl", "2-propyl", "allyl", "acetyl (ATcT-based acetaldehyde)", "trifluoromethyl",
@@ -100,15 +99,12 @@ def main(argv=None) -> int:
     from cationcalc.execution.store import ResultStore
 
     out_json, out_md = Path(args.output + ".json"), Path(args.output + ".md")
-    saved = json.loads(out_json.read_text()) if out_json.exists() else {}
-    saved.setdefault("species", {})
+    saved = resumable(out_json, "species")
     settings = Settings()
     rows = {r["name"]: r for r in load_table("gas_hydride_ion_affinities")}
-    anchor = carbocation(hia_reference("tert-butyl").cation_smiles)
-    pairs = {"tert-butyl (anchor)": (Species(anchor.smiles, 1, 1), hydride_adduct(anchor))}
+    pairs = {"tert-butyl (anchor)": hydride_pair(hia_reference("tert-butyl").cation_smiles)}
     for name in [n.strip() for n in args.rows.split(",") if n.strip()]:
-        cation = carbocation(rows[name]["cation_smiles"])
-        pairs[name] = (Species(cation.smiles, 1, 1), hydride_adduct(cation))
+        pairs[name] = hydride_pair(rows[name]["cation_smiles"])
     species = list(dict.fromkeys(sp for pair in pairs.values() for sp in pair))
     with held(args.lock):
         xtb = compute_many(species, settings, workers=1, store=ResultStore(args.store) if args.store else None)
