@@ -37,9 +37,9 @@ sys.path.insert(0, str(HERE.parent))
 from cationcalc.chem.reference import hia_reference, load_table  # noqa: E402
 from cationcalc.compute.models import Settings  # noqa: E402
 from cationcalc.compute.properties import hydride_ion_affinity  # noqa: E402
-from cationcalc.execution.executors import SpeciesFailure, compute_many  # noqa: E402
+from cationcalc.execution.executors import SpeciesFailure  # noqa: E402
 
-from dft_levels import held, hydride_pair, resumable  # noqa: E402
+from dft_levels import computed_pairs, held, hydride_pair, resumable  # noqa: E402
 
 ANCHOR = "methyl"
 DFT_LEVEL = "wB97X-D3BJ/def2-TZVP"
@@ -90,7 +90,6 @@ def main(argv=None) -> int:
     parser.add_argument("--output", default=str(HERE / "results" / "coupled_cluster_check"))
     args = parser.parse_args(argv)
 
-    from cationcalc.execution.store import ResultStore
 
     out_json, out_md = Path(args.output + ".json"), Path(args.output + ".md")
     saved = resumable(out_json, "ccsd_t")
@@ -99,9 +98,7 @@ def main(argv=None) -> int:
     anchor = hia_reference(ANCHOR)
     names = [n.strip() for n in args.rows.split(",") if n.strip()]
     pairs = {name: hydride_pair(table[name]["cation_smiles"]) for name in [ANCHOR, *names]}
-    species = list(dict.fromkeys(sp for pair in pairs.values() for sp in pair))
-    with held(args.lock):
-        xtb = compute_many(species, settings, workers=1, store=ResultStore(args.store) if args.store else None)
+    species, xtb = computed_pairs(pairs, settings, args.store, args.lock)
     failed = [sp.smiles for sp in species if isinstance(xtb[sp], SpeciesFailure)]
     if failed:
         raise SystemExit(f"GFN2-xTB failed for {', '.join(failed)}")

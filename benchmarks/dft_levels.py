@@ -92,6 +92,16 @@ def resumable(path: Path, section: str) -> dict:
     return saved
 
 
+def computed_pairs(pairs: dict, settings, store_path: str | None, lock_path: str | None) -> tuple[list, dict]:
+    """The distinct species of the (cation, adduct) pairs and their GFN2-xTB results (store read, lock held)."""
+    from cationcalc.execution.store import ResultStore
+
+    species = list(dict.fromkeys(sp for pair in pairs.values() for sp in pair))
+    with held(lock_path):
+        return species, compute_many(species, settings, workers=1,
+                                     store=ResultStore(store_path) if store_path else None)
+
+
 @contextlib.contextmanager
 def held(lock_path: str | None):
     """An exclusive lock on ``lock_path`` for the duration (nothing without a path)."""

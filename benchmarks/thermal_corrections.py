@@ -42,10 +42,10 @@ from cationcalc.compute.hessian import numerical_hessian  # noqa: E402
 from cationcalc.compute.models import Settings  # noqa: E402
 from cationcalc.compute.optimize import optimize  # noqa: E402
 from cationcalc.engines.pyscf_engine import DFTEngine  # noqa: E402
-from cationcalc.execution.executors import SpeciesFailure, compute_many  # noqa: E402
+from cationcalc.execution.executors import SpeciesFailure  # noqa: E402
 from cationcalc.execution.refine import parse_level  # noqa: E402
 
-from dft_levels import held, hydride_pair, resumable  # noqa: E402
+from dft_levels import computed_pairs, held, hydride_pair, resumable  # noqa: E402
 
 #: the smallest rows of the gas-phase set (a DFT Hessian costs 6N gradients)
 DEFAULT_ROWS = ("methyl", "ethyl", "2-propyl", "allyl", "acetyl (ATcT-based acetaldehyde)", "trifluoromethyl",
@@ -96,7 +96,6 @@ def main(argv=None) -> int:
     parser.add_argument("--output", default=str(HERE / "results" / "thermal_corrections"))
     args = parser.parse_args(argv)
 
-    from cationcalc.execution.store import ResultStore
 
     out_json, out_md = Path(args.output + ".json"), Path(args.output + ".md")
     saved = resumable(out_json, "species")
@@ -105,9 +104,7 @@ def main(argv=None) -> int:
     pairs = {"tert-butyl (anchor)": hydride_pair(hia_reference("tert-butyl").cation_smiles)}
     for name in [n.strip() for n in args.rows.split(",") if n.strip()]:
         pairs[name] = hydride_pair(rows[name]["cation_smiles"])
-    species = list(dict.fromkeys(sp for pair in pairs.values() for sp in pair))
-    with held(args.lock):
-        xtb = compute_many(species, settings, workers=1, store=ResultStore(args.store) if args.store else None)
+    species, xtb = computed_pairs(pairs, settings, args.store, args.lock)
     for sp in species:
         key = f"{sp.smiles}|{sp.charge}"
         if key in saved["species"] or isinstance(xtb[sp], SpeciesFailure):

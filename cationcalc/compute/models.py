@@ -140,10 +140,9 @@ class Settings(BaseModel):
 
 
 #: settings added after results were first stored, with the value that reproduces what was computed before
-#: they existed: at that value a setting stays out of the store key, so stored results keep their keys
-KEY_NEUTRAL_SETTINGS = {"hessian_conformers": "all"}
-#: conformer settings added later whose value here reproduces the earlier search (left out of the key)
-KEY_NEUTRAL_CONFORMER_SETTINGS = {"centre_torsion_steps": 0}
+#: they existed: at that value a setting stays out of the store key, so stored results keep their keys (a
+#: dotted name reaches into a nested model: ``conformers.centre_torsion_steps``)
+KEY_NEUTRAL_SETTINGS = {"hessian_conformers": "all", "conformers.centre_torsion_steps": 0}
 #: force threshold (eV/Å) of the screening optimisation (loose: a ranking, not a final structure)
 SCREENING_FMAX = 0.05
 
@@ -151,12 +150,13 @@ SCREENING_FMAX = 0.05
 def species_key(smiles: str, charge: int, multiplicity: int, settings: Settings) -> str:
     """SHA-256 of everything that determines a species result."""
     dumped = settings.model_dump(mode="json")
-    for name, neutral in KEY_NEUTRAL_SETTINGS.items():
-        if dumped.get(name) == neutral:
-            del dumped[name]
-    for name, neutral in KEY_NEUTRAL_CONFORMER_SETTINGS.items():
-        if dumped.get("conformers", {}).get(name) == neutral:
-            del dumped["conformers"][name]
+    for path, neutral in KEY_NEUTRAL_SETTINGS.items():
+        *parents, name = path.split(".")
+        holder = dumped
+        for parent in parents:
+            holder = holder.get(parent, {})
+        if holder.get(name, neutral) == neutral:
+            holder.pop(name, None)
     payload = {
         "smiles": smiles, "charge": int(charge), "multiplicity": int(multiplicity),
         "settings": dumped, "version": __version__,
