@@ -26,7 +26,7 @@ import warnings
 from collections.abc import Iterable, Mapping
 from typing import TYPE_CHECKING, Any, Union
 
-from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE
+from cationcalc.chem.reference import NEAREST_CLASS
 from cationcalc.compute.models import Settings
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -77,7 +77,7 @@ class Records(list):
 # ------------------------------------------------------------------------------ the tasks
 
 
-def hia(smiles: Inputs, *, solvent: str | None = None, reference: str = DEFAULT_HIA_REFERENCE,
+def hia(smiles: Inputs, *, solvent: str | None = None, reference: str = NEAREST_CLASS,
         calibrated: bool = False, refine: str | bool | None = None, refine_geometry: str | bool | None = None, engine: str = _ENGINE,
         temperature: float = _TEMPERATURE_K, pressure: float = _PRESSURE_PA, conformers: int | None = None,
         rrho: bool = False, mix_enantiomers: bool = False, workers: int | None = None, force: bool = False, thorough: bool = False,
@@ -248,9 +248,9 @@ def _check_options(task: str, settings: Settings, temperature: float, options: d
     from cationcalc.chem.leaving_groups import leaving_group
 
     if task == "hia":
-        from cationcalc.chem.reference import hia_reference
+        from cationcalc.chem.reference import check_hia_reference
 
-        hia_reference(options["reference"])
+        check_hia_reference(options["reference"])
     if options.get("medium") is not None:
         from cationcalc.chem.media import medium
         from cationcalc.tasks.rate import check_temperature

@@ -69,9 +69,9 @@ def test_every_task_is_available_to_a_study_plan(task, tmp_path):
 def test_the_shift_defaults_and_the_anchor_are_written_once():
     shifts = spec("shifts").defaults()
     assert (shifts["depth"], shifts["threshold_kcal_mol"], shifts["ceiling_kcal_mol"]) == (3, 1.0, 25.0)
-    from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE
+    from cationcalc.chem.reference import NEAREST_CLASS
 
-    assert spec("hia").defaults()["reference"] == DEFAULT_HIA_REFERENCE
+    assert spec("hia").defaults()["reference"] == NEAREST_CLASS
     assert build_parser().parse_args(["shifts"]).depth == 3
 
 

@@ -292,9 +292,9 @@ def _check_task_options(args, task) -> None:
     """Names the command line checks before anything is computed (ValueError with the fix)."""
     fields = task.options.model_fields
     if "reference" in fields:
-        from cationcalc.chem.reference import hia_reference
+        from cationcalc.chem.reference import check_hia_reference
 
-        hia_reference(args.reference)
+        check_hia_reference(args.reference)
     if getattr(args, "medium", None):
         from cationcalc.chem.media import medium
         from cationcalc.tasks.rate import check_temperature

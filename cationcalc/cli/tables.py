@@ -21,6 +21,25 @@ from cationcalc.tasks.registry import SpecField, spec as task_spec
 COLUMNS = SpecField("wide")
 
 
+def anchors_text(records: list[dict]) -> str:
+    """The anchor cation(s) the records' HIAs used, each with its value and source, in order of first use.
+
+    >>> anchors_text([{"reference": "tert-butyl", "reference_hia_kcal_mol": 236.7, "reference_source": "K 1993"}])
+    'the tert-butyl cation (HIA 236.7 kcal/mol, K 1993; status read)'
+    """
+    seen: dict[str, dict] = {}
+    for r in records:
+        seen.setdefault(r["reference"], r)
+    parts = [f"the {name} cation (HIA {r['reference_hia_kcal_mol']} kcal/mol, {r['reference_source']}; "
+             f"status {r.get('reference_status') or 'read'})" for name, r in seen.items()]
+    text = " and ".join(parts) if len(parts) < 3 else ", ".join(parts[:-1]) + " and " + parts[-1]
+    if len(parts) > 1 or any(r.get("reference_choice") == "nearest class" and r.get("refine_level") for r in records):
+        from cationcalc.chem.reference import class_anchor_rule
+
+        text += f" (nearest-class anchor for DFT-refined values: {class_anchor_rule()}; 'reference' in --json)"
+    return text
+
+
 def _ionization_footer(task: str, records: list[dict]) -> list[str]:
     """The notes a chemist needs beside an ionization table: model, caveats, verdict rules, sources."""
     from cationcalc.chem.ionization import verdict_rules
@@ -40,9 +59,7 @@ def _ionization_footer(task: str, records: list[dict]) -> list[str]:
         if first.get("solvation_note"):
             lines.append(first["solvation_note"][0].upper() + first["solvation_note"][1:] + ".")
     if "hia_kcal_mol" in first:
-        lines.append(f"HIA by isodesmic hydride exchange with the {first['reference']} cation "
-                     f"(HIA {first['reference_hia_kcal_mol']} kcal/mol, {first['reference_source']}; "
-                     f"status {first.get('reference_status') or 'read'}).")
+        lines.append("HIA by isodesmic hydride exchange with " + anchors_text(ok) + ".")
     if task == "ladder":
         lines.append(first["ladder_note"] + ".")
         if first.get("spearman_rho_vs_solvolysis") is not None:
@@ -186,8 +203,8 @@ def _print_footer(console, task: str, records: list[dict], first: dict) -> None:
         for line in rate_footer(records):
             console.print(escape(line), highlight=False)
     if task == "hia" and first.get("reference"):
-        console.print(f"Anchor: {first['reference']} cation, HIA {first['reference_hia_kcal_mol']} kcal/mol "
-                      f"({first['reference_source']}; status {first.get('reference_status') or 'read'}). HIA = ΔH298 of R⁺ + H⁻ → R–H by isodesmic hydride exchange.")
+        console.print(escape(f"Anchor: {anchors_text([r for r in records if r.get('reference')])}. "
+                             "HIA = ΔH298 of R⁺ + H⁻ → R–H by isodesmic hydride exchange."), highlight=False)
     if task == "heterolysis":
         console.print("Standard state: 1 atm in the gas phase, 1 mol/L in solution (1 atm → 1 M applied once per species).")
     if task == "shifts":

@@ -16,7 +16,7 @@ Example
 ...                           "method: {solvent: [none, water]}\\n")
 >>> plan = build_plan(load_workflow(path))
 >>> plan.row_count, [s or "gas" for s in plan.solvents], plan.tasks[0].options
-(4, ['gas', 'water'], {'reference': 'tert-butyl'})
+(4, ['gas', 'water'], {'reference': 'nearest class'})
 """
 
 from __future__ import annotations
@@ -31,7 +31,7 @@ from typing import Any, Iterator
 from pydantic import BaseModel, ValidationError
 
 from cationcalc.about import __version__
-from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE
+from cationcalc.chem.reference import NEAREST_CLASS
 from cationcalc.chem.species import Species
 from cationcalc.compute.models import Settings, species_key
 from cationcalc.studies.loading import LoadedWorkflow
@@ -283,7 +283,7 @@ def known_needs(task: PlannedTask, settings: Settings, force: bool
 
     if task.spec.prepare is None:
         return None
-    options = {"reference": DEFAULT_HIA_REFERENCE, **task.options}
+    options = {"reference": NEAREST_CLASS, **task.options}
     groups = [tasks.prepare(task.name, t, n, settings, options, force) for t, n in task.items]
     needs = [sp for group in groups for p in group if p.error is None for sp in p.needs.values()]
     rejected = [(n or t, p.error) for (t, n), group in zip(task.items, groups) for p in group

@@ -181,6 +181,8 @@ class HiaReference(Record):
     reference_hia_kcal_mol: float | None = _d("experimental gas-phase HIA of the reference cation, kcal/mol")
     reference_source: str | None = _d("where the reference HIA comes from")
     reference_status: str | None = _d("how the reference HIA was checked")
+    reference_choice: str | None = _d("how the anchor was chosen: 'nearest class' (tert-butyl for GFN2-xTB values, "
+                                      "the class anchor for DFT-refined ones: acylium ions on acetyl) or 'given'")
 
 
 class HiaValues(Record):

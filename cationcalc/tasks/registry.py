@@ -14,7 +14,7 @@ Example
 >>> task_names()[:3]
 ['hia', 'heterolysis', 'thermo']
 >>> spec("hia").options().reference, spec("shifts").options().depth
-('tert-butyl', 3)
+('nearest class', 3)
 """
 
 from __future__ import annotations

@@ -23,7 +23,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from cationcalc.about import SAFETY_NOTE
-from cationcalc.chem.reference import DEFAULT_HIA_REFERENCE
+from cationcalc.chem.reference import NEAREST_CLASS
 from cationcalc.compute.models import Settings
 from cationcalc.execution.executors import Interrupted, Progress, SpeciesFailure, compute_many
 from cationcalc.execution.lowest import settle_lowest
@@ -114,14 +114,14 @@ def _one_pass_each(task: TaskSpec, options: dict) -> list | None:
     return list(values) if isinstance(values, (list, tuple)) and len(values) > 1 else None
 
 
-def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, reference: str = DEFAULT_HIA_REFERENCE,
+def run_task(task: str, items: list[tuple[str, str]], settings: Settings, *, reference: str = NEAREST_CLASS,
              workers: int = 1, force: bool = False, progress: Progress | None = None,
              store: ResultStore | None = None, **options: Any) -> list[Record]:
     """Run one task over (input, name) pairs; typed records (:mod:`cationcalc.tasks.record_types`) in input order.
 
     ``hia``, ``heterolysis``, ``thermo`` and ``ionize`` give one record per
     input; ``sites`` and ``ladder`` one per site or leaving group, ranked.
-    Options: ``reference`` (HIA anchor), and for the ionization tasks
+    Options: ``reference`` (HIA anchor: a name, or the default nearest class), and for the ionization tasks
     ``leaving_group`` (name or 'auto'), ``acid``, ``reference_substrate``
     (SMILES of the substrate ΔΔG_ion is measured against), ``hydride``
     (sites: scan C–H bonds even when a leaving group is present), ``groups``
