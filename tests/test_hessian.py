@@ -148,3 +148,34 @@ def test_toy_engine_hessian_is_exact_and_counted(lender):
     h = numerical_hessian([6] * 16, np.zeros((16, 3)), engine, **WATER)
     assert np.allclose(h, 2 * np.eye(48))  # E = Σ x², H = 2·1
     assert engine.counters.calls == 6 * 16
+
+
+def test_forward_differences_cost_3n_plus_1_and_agree_with_central_on_a_quadratic(lender):
+    # E = Σ x² has no third derivative, so forward differences are exact there too; they cost 3N + 1
+    # gradients against 6N (the forces at the undisplaced structure once)
+    lender(0)
+    engine = FailingEngine(fail_on_column=-1)
+    h = numerical_hessian([6] * 16, np.zeros((16, 3)), engine, scheme="forward", **WATER)
+    assert np.allclose(h, 2 * np.eye(48))
+    assert engine.counters.calls == 3 * 16 + 1
+    with pytest.raises(ValueError, match="central, forward"):
+        numerical_hessian([6] * 16, np.zeros((16, 3)), engine, scheme="backward", **WATER)
+
+
+def test_forward_difference_frequencies_of_pentane_are_close_to_central():
+    # GFN2-xTB pentane at its optimised structure: the forward-difference error is of order h (0.005 Å), so the
+    # frequencies move by a few cm-1 at most (common practice, no source: about 1 % of a C-H stretch)
+    from ase.data import atomic_masses
+
+    from cationcalc.chem import thermo
+    from cationcalc.compute.optimize import optimize
+
+    numbers, positions = _pentane()
+    engine = get_engine("tblite")
+    opt = optimize(numbers, positions, engine, charge=0, multiplicity=1, solvent="water", fmax=0.005)
+    masses = np.array([atomic_masses[z] for z in numbers])
+    freqs = {scheme: thermo.vibrational_analysis(
+        numerical_hessian(numbers, opt.positions, engine, scheme=scheme, **WATER), masses, opt.positions
+    ).frequencies_cm1 for scheme in ("central", "forward")}
+    assert np.max(np.abs(freqs["forward"] - freqs["central"])) < 30.0
+    assert np.mean(np.abs(freqs["forward"] - freqs["central"])) < 5.0

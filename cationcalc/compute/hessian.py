@@ -1,7 +1,10 @@
 """Numerical Hessians from analytic engine gradients, in memory, on idle cores when there are some.
 
-Central differences: every Cartesian coordinate is displaced by ±h (default
-0.005 Å) and the Hessian column is −(F(+h) − F(−h)) / 2h; the matrix is then
+Central differences (the default): every Cartesian coordinate is displaced
+by ±h (default 0.005 Å) and the Hessian column is −(F(+h) − F(−h)) / 2h,
+6N gradients.  Forward differences (``scheme="forward"``) take
+−(F(+h) − F(0)) / h, 3N + 1 gradients, with an error of order h (the third
+derivative) where the central one is of order h²; the matrix is then
 symmetrised, (H + Hᵀ)/2.  Nothing is written to disk (no stale displacement
 files can be reused).
 
@@ -39,6 +42,8 @@ from cationcalc.compute.cores import borrow_cores, give_back_cores
 from cationcalc.engines.base import Engine, EngineCounters
 
 DEFAULT_STEP_ANGSTROM = 0.005
+#: finite-difference schemes: displacements per coordinate
+SCHEMES = {"central": (+1.0, -1.0), "forward": (+1.0,)}
 #: a block holds at least this many columns (a fresh chain costs about one extra gradient)
 MIN_BLOCK_COLUMNS = 24
 #: at most this many blocks, hence at most this many threads on one Hessian
@@ -71,6 +76,8 @@ class _Displacements:
     pos0: np.ndarray
     step: float
     keywords: dict
+    #: forces at the undisplaced structure (forward differences), flattened
+    forces0: np.ndarray | None = None
     columns: np.ndarray = field(init=False)
 
     def __post_init__(self) -> None:
@@ -78,23 +85,33 @@ class _Displacements:
 
     def compute(self, engine: Engine, block: range) -> None:
         """Fill the columns of ``block`` with ``engine`` (one SCF chain)."""
+        signs = SCHEMES["central"] if self.forces0 is None else SCHEMES["forward"]
         for k in block:
             atom, axis = divmod(k, 3)
             forces = []
-            for sign in (+1.0, -1.0):
+            for sign in signs:
                 pos = self.pos0.copy()
                 pos[atom, axis] += sign * self.step
                 result = engine.compute(self.numbers, pos, **self.keywords)
                 forces.append(result.forces_ev_per_angstrom.reshape(-1))
-            self.columns[:, k] = -(forces[0] - forces[1]) / (2.0 * self.step)
+            if self.forces0 is None:
+                self.columns[:, k] = -(forces[0] - forces[1]) / (2.0 * self.step)
+            else:
+                self.columns[:, k] = -(forces[0] - self.forces0) / self.step
 
 
 def numerical_hessian(numbers: ArrayLike, positions_angstrom: ArrayLike, engine: Engine, *, charge: int, multiplicity: int,
-                      solvent: str | None = None, step_angstrom: float = DEFAULT_STEP_ANGSTROM) -> np.ndarray:
-    """Symmetrised central-difference Hessian in eV/Å² (3N × 3N)."""
+                      solvent: str | None = None, step_angstrom: float = DEFAULT_STEP_ANGSTROM,
+                      scheme: str = "central") -> np.ndarray:
+    """Symmetrised finite-difference Hessian in eV/Å² (3N × 3N), ``scheme`` 'central' or 'forward'."""
+    if scheme not in SCHEMES:
+        raise ValueError(f"Hessian scheme {scheme!r}: choose one of {', '.join(SCHEMES)}")
     pos0 = np.asarray(positions_angstrom, dtype=float)
-    job = _Displacements(numbers, pos0, float(step_angstrom),
-                         {"charge": charge, "multiplicity": multiplicity, "solvent": solvent})
+    keywords = {"charge": charge, "multiplicity": multiplicity, "solvent": solvent}
+    forces0 = None
+    if scheme == "forward":
+        forces0 = engine.compute(numbers, pos0, **keywords).forces_ev_per_angstrom.reshape(-1)
+    job = _Displacements(numbers, pos0, float(step_angstrom), keywords, forces0)
     blocks = column_blocks(pos0.size)
     if len(blocks) == 1 or not hasattr(engine, "reset"):
         job.compute(engine, range(pos0.size))

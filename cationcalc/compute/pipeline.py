@@ -334,7 +334,8 @@ def _hessian_modes(job: SpeciesJob, positions: np.ndarray) -> tuple[thermo.Vibra
     """Normal modes from a numerical Hessian at ``positions``, and the engine calls it took."""
     before = job.engine.counters.calls
     hessian = numerical_hessian(job.numbers, positions, job.engine,
-                                step_angstrom=job.settings.hessian_step_angstrom, **job.engine_keywords)
+                                step_angstrom=job.settings.hessian_step_angstrom,
+                                scheme=job.settings.hessian_difference, **job.engine_keywords)
     calls = job.engine.counters.calls - before
     return thermo.vibrational_analysis(hessian, _masses(job.numbers), positions), calls
 
