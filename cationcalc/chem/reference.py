@@ -104,10 +104,15 @@ def class_anchor_rule() -> str:
     return ", ".join(parts + [f"the rest on {DEFAULT_HIA_REFERENCE}"])
 
 
+def given_hia_reference(value: str | None) -> HIAReference | None:
+    """The anchor ``value`` names; None for :data:`NEAREST_CLASS` (or nothing); ValueError listing the choices."""
+    text = str(value or NEAREST_CLASS).strip()
+    return None if text.lower() == NEAREST_CLASS else hia_reference(text)
+
+
 def check_hia_reference(value: str) -> str:
     """``value`` if it names an anchor or is :data:`NEAREST_CLASS`; ValueError listing the choices otherwise."""
-    if str(value).strip().lower() != NEAREST_CLASS:
-        hia_reference(value)
+    given_hia_reference(value)
     return value
 
 

@@ -96,7 +96,7 @@ class Settings(BaseModel):
     hessian_difference: Literal["central", "forward"] = Field(
         "central", description="finite differences of the numerical Hessian: 'central' (6N gradients, error of "
                                "order h²) or 'forward' (3N + 1, error of order h).  Forward is a benchmark knob, "
-                               "not offered in workflows: on the drug-like set it cut Hessian gradients by 23 % but "
+                               "not offered in workflows: on the drug-like set it cut Hessian gradients by 24 % but "
                                "its spurious imaginary modes added 19 % optimisation gradients in mode following, "
                                "and ΔG_ion moved by up to 1.6 kcal/mol (benchmarks/README.md)")
     hessian_conformers: Literal["all", "lowest", "none"] = Field(

@@ -26,7 +26,7 @@ from pydantic import field_validator
 from cationcalc.chem import units
 from cationcalc.chem.ionization import cation_class
 from cationcalc.chem.reference import (DEFAULT_HIA_REFERENCE, NEAREST_CLASS, HIAReference, check_hia_reference,
-                                       class_anchor, class_anchor_rule, hia_reference)
+                                       class_anchor, class_anchor_rule, given_hia_reference, hia_reference)
 from cationcalc.chem.species import InputError, Species, carbocation, hydride_adduct
 from cationcalc.compute.models import Settings, SpeciesResult
 from cationcalc.compute.properties import hydride_ion_affinity
@@ -114,8 +114,7 @@ def prepare_hia(text: str, name: str, settings: Settings, reference: HIAReferenc
 
 
 def _prepare(text: str, name: str, settings: Settings, options: dict, force: bool) -> list[Prepared]:
-    given = (options.get("reference") or NEAREST_CLASS).strip()
-    reference = None if given.lower() == NEAREST_CLASS else hia_reference(given)
+    reference = given_hia_reference(options.get("reference"))
     return [prepare_hia(text, name, settings, reference, force, refine=bool(options.get("refine")))]
 
 
