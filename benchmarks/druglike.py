@@ -103,7 +103,8 @@ def _site(record) -> dict:
     alternatives = record.get("alternatives") or []
     return {"input": record.get("input"), "name": record.get("name"), "cation_smiles": record.get("cation_smiles"),
             "leaving_group": record.get("leaving_group"), "site_atom": record.get("site_atom"),
-            "dG_ion_kcal_mol": record.get("dG_ion_kcal_mol"), "verdict": record.get("verdict"),
+            "dG_ion_kcal_mol": record.get("dG_ion_kcal_mol"), "dE_ion_kcal_mol": record.get("dE_ion_kcal_mol"),
+            "verdict": record.get("verdict"),
             "error": record.get("error"), "sites": 1 + len(alternatives),
             "alternatives": [{k: a.get(k) for k in ("site_atom", "leaving_group", "cation_smiles", "dG_ion_kcal_mol",
                                                     "error")} for a in alternatives]}

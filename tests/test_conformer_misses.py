@@ -12,6 +12,7 @@ no published number.
 
 from __future__ import annotations
 
+import json
 import numpy as np
 import pytest
 from rdkit import Chem
@@ -153,15 +154,27 @@ def test_ionize_takes_delta_g_from_the_parent_the_shift_screen_lowered(tmp_path)
     store.close()
 
 
-# ------------------------------------------------------------------ centre torsion seeds (opt-in search)
+# ------------------------------------------------------------------ centre torsion seeds (the default search)
 
-def test_centre_torsion_seeds_are_left_out_of_the_store_key_when_off():
+def test_carbocations_stored_without_centre_torsion_seeds_keep_their_keys_and_other_species_ignore_them():
+    import hashlib
+
+    from cationcalc.about import __version__
     from cationcalc.chem.conformers import ConformerSettings
 
     off = Settings(conformers=ConformerSettings(centre_torsion_steps=0))
-    on = Settings(conformers=ConformerSettings(centre_torsion_steps=3))
-    assert species_key("C[CH+]CC", 1, 1, off) == species_key("C[CH+]CC", 1, 1, Settings())
-    assert species_key("C[CH+]CC", 1, 1, on) != species_key("C[CH+]CC", 1, 1, Settings())
+    before = off.model_dump(mode="json")  # the key of a carbocation stored before the seeds existed
+    for name in ("hessian_conformers", "hessian_difference"):
+        before.pop(name)
+    before["conformers"].pop("centre_torsion_steps")
+    payload = {"smiles": "C[CH+]CC", "charge": 1, "multiplicity": 1, "settings": before, "version": __version__}
+    assert species_key("C[CH+]CC", 1, 1, off.model_copy(update={"hessian_conformers": "all"})) == \
+        hashlib.sha256(json.dumps(payload, sort_keys=True).encode()).hexdigest()
+    assert Settings().conformers.centre_torsion_steps == 3  # the default search turns the centre's bonds
+    assert species_key("C[CH+]CC", 1, 1, off) != species_key("C[CH+]CC", 1, 1, Settings())
+    # a neutral precursor, an anion or a non-carbon cation is untouched by the seeds: one key whatever the value
+    for smiles, charge in (("CC(Cl)CC", 0), ("[Cl-]", -1), ("C[N+](C)(C)C", 1)):
+        assert species_key(smiles, charge, 1, off) == species_key(smiles, charge, 1, Settings())
 
 
 def test_centre_torsion_seeds_find_the_lower_2_butyl_conformer():
@@ -172,9 +185,9 @@ def test_centre_torsion_seeds_find_the_lower_2_butyl_conformer():
     from cationcalc.execution.executors import compute_one
 
     sp = Species("C[CH+]CC", 1, 1)
-    plain = compute_one(sp, Settings(hessian_conformers="none"))
-    seeded = compute_one(sp, Settings(hessian_conformers="none",
-                                      conformers=ConformerSettings(centre_torsion_steps=3)))
+    plain = compute_one(sp, Settings(hessian_conformers="none",
+                                     conformers=ConformerSettings(centre_torsion_steps=0)))
+    seeded = compute_one(sp, Settings(hessian_conformers="none"))  # the default: three turns
     assert not plain.rearranged and not seeded.rearranged
     gain = (plain.E_hartree - seeded.E_hartree) * units.HARTREE_TO_KCAL_MOL
     assert gain > 0.5, gain

@@ -86,7 +86,7 @@ def test_the_full_protocol_keeps_the_store_keys_of_results_computed_before_the_f
     """Results stored before hessian_conformers existed were computed with a Hessian on every conformer and LBFGS."""
     before = Settings(optimizer="LBFGS").model_dump(mode="json")
     before.pop("hessian_conformers")
-    before["conformers"].pop("centre_torsion_steps")  # added later still: off by default, left out of the key
+    before["conformers"].pop("centre_torsion_steps")  # added later still: never in a non-carbocation's key
     before.pop("hessian_difference")  # added later still: central by default, left out of the key
     import hashlib
 

@@ -26,9 +26,9 @@ from cationcalc.execution.executors import SpeciesFailure, compute_many, compute
 from cationcalc.compute.models import PRESSURE_RANGE_PA, TEMPERATURE_RANGE_K, Settings, SpeciesResult
 from cationcalc.chem.species import InputError, Species, species
 from cationcalc.execution.store import ResultStore, StoreError
-from cationcalc.studies.workflow import WorkflowError, build_plan, describe_plan, load_workflow, run_plan
+from cationcalc.studies.workflow import WorkflowError, build_plan, describe_plan, load_workflow
 from cationcalc.cli.run_command import main as run_main
-from store_probe import stored_species
+from store_probe import sigint_ignored, start_until_first_species, stored_species
 
 ROOT = Path(__file__).resolve().parents[1]
 FEW = ConformerSettings(max_conformers=2, n_optimize=1)
@@ -370,14 +370,8 @@ INPUTS = ["O", "C", "N", "CC(C)(C)Cl", "CCCCCCCCO", "CCOC(C)=O", "CCCCCCCC", "CC
 @pytest.mark.parametrize("workers", [1, 2])
 def test_sigterm_keeps_what_finished_and_exits_non_zero(tmp_path, workers):
     store = tmp_path / "store.sqlite"
-    proc = subprocess.Popen([sys.executable, "-m", "cationcalc.cli", "thermo", *INPUTS, "--json",
-                             "--workers", str(workers), "--store", str(store)],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=_env(tmp_path))
-    deadline = time.monotonic() + 120
-    while stored_species(store) < 1:
-        assert proc.poll() is None, proc.communicate()
-        assert time.monotonic() < deadline, "nothing was stored within 2 minutes"
-        time.sleep(0.02)
+    proc = start_until_first_species(["thermo", *INPUTS, "--json", "--workers", str(workers), "--store", str(store)],
+                                     store, _env(tmp_path))
     proc.send_signal(signal.SIGTERM)
     out, err = proc.communicate(timeout=60)
     assert proc.returncode == 143, err
@@ -388,18 +382,30 @@ def test_sigterm_keeps_what_finished_and_exits_non_zero(tmp_path, workers):
     assert stored_species(store) >= len(finished)
 
 
+def test_a_background_job_ignores_ctrl_c_but_stops_on_sigterm(tmp_path):
+    # a command started with "&" from a script (or nohup) inherits SIGINT ignored; SIGTERM, how schedulers and
+    # kill stop jobs, must still stop it and keep what finished, and a plain SIGINT must stay ignored
+    # (POSIX shells ignore SIGINT in background jobs: common practice, no source)
+    store = tmp_path / "store.sqlite"
+    proc = start_until_first_species(["thermo", *INPUTS, "--json", "--workers", "1", "--store", str(store)],
+                                     store, _env(tmp_path), preexec_fn=sigint_ignored)
+    proc.send_signal(signal.SIGINT)
+    time.sleep(0.5)
+    assert proc.poll() is None, proc.communicate()
+    proc.send_signal(signal.SIGTERM)
+    out, err = proc.communicate(timeout=60)
+    assert proc.returncode == 143, err
+    assert "stopped by SIGTERM" in err
+    assert 1 <= stored_species(store) < len(INPUTS)
+    assert len(json.loads(out)) == len(INPUTS)
+
+
 def test_sigterm_stops_a_study_like_ctrl_c(tmp_path):
     species_lines = "\n".join(f'  - {{smiles: "{s}", name: m{i}}}' for i, s in enumerate(INPUTS))
     path = write(tmp_path, f"study: term\nspecies:\n{species_lines}\ntasks: [thermo]\n"
                            "conformers: {max_conformers: 3}\noutput: {folder: out}\nexecution: {workers: 1}\n")
     store = tmp_path / "out" / "store.sqlite"
-    proc = subprocess.Popen([sys.executable, "-m", "cationcalc.cli", "run", str(path), "--quiet"],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=_env(tmp_path))
-    deadline = time.monotonic() + 120
-    while stored_species(store) < 1:
-        assert proc.poll() is None, proc.communicate()
-        assert time.monotonic() < deadline
-        time.sleep(0.02)
+    proc = start_until_first_species(["run", str(path), "--quiet"], store, _env(tmp_path))
     proc.send_signal(signal.SIGTERM)
     out, err = proc.communicate(timeout=60)
     assert proc.returncode == 143 and "stopped by SIGTERM" in err and "resume" in err, err

@@ -277,9 +277,10 @@ def test_cli_benzyl_at_default_level_within_published_uncertainty(capsys):
 @pytest.mark.slow  # about 250 s on 2 cores: nine DFT single points on benzyl cations
 def test_sigma_plus_correlation_of_para_benzyl_cations_after_dft_refinement():
     # Brown–Okamoto σ⁺ (H. C. Brown, Y. Okamoto, J. Am. Chem. Soc. 80, 4979 (1958), values from memory, in
-    # sigma_plus.csv) against gas-phase HIA of the para-substituted benzyl cations: r ≥ 0.95 with the
-    # expected sign (donors lower the HIA).  Raw GFN2-xTB gives r = 0.947 (strict xfail in test_checks);
-    # wB97X-D3BJ/def2-SVP single points on the same geometries gave r = 0.994 when measured here.
+    # sigma_plus.csv) against gas-phase HIA of the para-substituted benzyl cations: r ≥ 0.97 (the accuracy
+    # goal of the refinement tier) with the expected sign (donors lower the HIA).  Raw GFN2-xTB gives r = 0.947
+    # (strict xfail in test_checks); wB97X-D3BJ/def2-SVP single points on the same geometries gave r = 0.994 when
+    # measured here, wB97X-D3BJ/def2-TZVP 0.994 in the gas phase and in ALPB(acetone) (benchmarks/sigma_plus_media.py).
     from scipy.stats import pearsonr
 
     from cationcalc.chem.reference import load_table
@@ -292,7 +293,7 @@ def test_sigma_plus_correlation_of_para_benzyl_cations_after_dft_refinement():
     sigma = [float(r["sigma_plus"]) for r in rows]
     refined = pearsonr(sigma, [r["hia_kcal_mol"] for r in records])
     screening = pearsonr(sigma, [r["hia_xtb_kcal_mol"] for r in records])
-    assert refined.statistic >= 0.95, refined.statistic
+    assert refined.statistic >= 0.97, refined.statistic
     assert refined.statistic > screening.statistic
 
 

@@ -9,9 +9,6 @@ test_study.py; this file covers what those leave out.)
 import json
 import os
 import signal
-import subprocess
-import sys
-import time
 from pathlib import Path
 
 import numpy as np
@@ -25,7 +22,7 @@ from cationcalc.compute.models import Settings
 from cationcalc.compute.optimize import optimize
 from cationcalc.compute.pipeline import ComputationError, compute_species
 from cationcalc.chem.species import MAX_HEAVY_ATOMS, species
-from store_probe import stored_species
+from store_probe import start_until_first_species, stored_species
 
 ROOT = Path(__file__).resolve().parents[1]
 FEW = ConformerSettings(max_conformers=2, n_optimize=1)
@@ -153,14 +150,8 @@ def test_ctrl_c_keeps_what_finished_and_leaves_no_temporary_files(tmp_path, work
     store = tmp_path / "store.sqlite"
     env = {**os.environ, "PYTHONPATH": str(ROOT), "TMPDIR": str(temp)}
     inputs = ["O", "C", "N", "CC(C)(C)Cl", "CCCCCCCCO", "CCOC(C)=O", "CCCCCCCC", "CC(C)CCCCO"]
-    proc = subprocess.Popen([sys.executable, "-m", "cationcalc.cli", "thermo", *inputs, "--json",
-                             "--workers", str(workers), "--store", str(store)],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
-    deadline = time.monotonic() + 120
-    while stored_species(store) < 1:
-        assert proc.poll() is None, proc.communicate()
-        assert time.monotonic() < deadline, "nothing was stored within 2 minutes"
-        time.sleep(0.02)
+    proc = start_until_first_species(["thermo", *inputs, "--json", "--workers", str(workers), "--store", str(store)],
+                                     store, env)
     proc.send_signal(signal.SIGINT)
     out, err = proc.communicate(timeout=60)
     assert proc.returncode == 130, err

@@ -6,7 +6,6 @@ import signal
 import subprocess
 import sys
 import textwrap
-import time
 from pathlib import Path
 
 import pytest
@@ -14,7 +13,7 @@ import pytest
 from cationcalc.about import SAFETY_NOTE
 from cationcalc.cli.run_command import main
 from cationcalc.studies.workflow import WorkflowError, build_plan, load_workflow, run_study
-from store_probe import stored_species
+from store_probe import start_until_first_species, stored_species
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -268,13 +267,7 @@ MANY = ["CC(C)(C)Cl", "CCC(C)(C)Cl", "CCCCO", "CC(C)CCO", "CCOCC", "CCCCCC", "CC
 
 def _start_and_stop(path: Path, store: Path, sig: int) -> subprocess.CompletedProcess:
     env = {**os.environ, "PYTHONPATH": str(ROOT)}
-    proc = subprocess.Popen([sys.executable, "-m", "cationcalc.cli", "run", str(path), "--workers", "1", "--quiet"],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
-    deadline = time.monotonic() + 120
-    while stored_species(store) < 1:
-        assert proc.poll() is None, proc.communicate()
-        assert time.monotonic() < deadline
-        time.sleep(0.01)
+    proc = start_until_first_species(["run", str(path), "--workers", "1", "--quiet"], store, env)
     proc.send_signal(sig)
     out, err = proc.communicate(timeout=60)
     return subprocess.CompletedProcess(proc.args, proc.returncode, out, err)

@@ -27,7 +27,7 @@ from typing import Annotated, Literal
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, field_validator
 
 from cationcalc.about import __version__
-from cationcalc.chem.conformers import ConformerSettings
+from cationcalc.chem.conformers import ConformerSettings, has_cationic_carbon
 
 #: temperatures (K) the thermochemistry accepts.  Below ~50 K the classical (high-temperature)
 #: rotational partition function used here fails for light species (rotational temperature of H2
@@ -150,6 +150,9 @@ class Settings(BaseModel):
 #: dotted name reaches into a nested model: ``conformers.centre_torsion_steps``)
 KEY_NEUTRAL_SETTINGS = {"hessian_conformers": "all", "conformers.centre_torsion_steps": 0,
                         "hessian_difference": "central"}
+#: settings that change only carbocations (a carbon of formal charge +1): left out of every other species'
+#: key, so neutral precursors, anions and leaving groups keep their stored results whatever their value
+CARBOCATION_ONLY_SETTINGS = ("conformers.centre_torsion_steps",)
 #: force threshold (eV/Å) of the screening optimisation (loose: a ranking, not a final structure)
 SCREENING_FMAX = 0.05
 
@@ -157,12 +160,13 @@ SCREENING_FMAX = 0.05
 def species_key(smiles: str, charge: int, multiplicity: int, settings: Settings) -> str:
     """SHA-256 of everything that determines a species result."""
     dumped = settings.model_dump(mode="json")
+    carbocation = has_cationic_carbon(smiles)
     for path, neutral in KEY_NEUTRAL_SETTINGS.items():
         *parents, name = path.split(".")
         holder = dumped
         for parent in parents:
             holder = holder.get(parent, {})
-        if holder.get(name, neutral) == neutral:
+        if holder.get(name, neutral) == neutral or (path in CARBOCATION_ONLY_SETTINGS and not carbocation):
             holder.pop(name, None)
     payload = {
         "smiles": smiles, "charge": int(charge), "multiplicity": int(multiplicity),

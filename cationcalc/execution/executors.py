@@ -102,9 +102,29 @@ def _engine_for(settings: Settings):
 _SIGINT_SEEN = False
 
 
+def _plain_sigint_ignored() -> bool:
+    """True when this process was started with SIGINT ignored and no SIGTERM asked it to stop.
+
+    A background job of a non-interactive shell (``cationcalc run study.yaml &``,
+    ``nohup``) starts with SIGINT ignored; :func:`terminate_as_interrupt` then
+    installs a handler anyway, so that its own re-sent SIGINT stops the run, and a
+    plain Ctrl-C stays ignored as the parent asked.
+    """
+    return _STOP_SIGNAL["ignore_plain_sigint"] and _STOP_SIGNAL["signal"] != "SIGTERM"
+
+
 def _note_sigint(signum, frame):
     global _SIGINT_SEEN
+    if _plain_sigint_ignored():
+        return
     _SIGINT_SEEN = True
+    raise KeyboardInterrupt
+
+
+def _interrupt_unless_ignored(signum, frame):
+    """SIGINT handler installed in place of SIG_IGN inside :func:`terminate_as_interrupt`."""
+    if _plain_sigint_ignored():
+        return
     raise KeyboardInterrupt
 
 
@@ -128,10 +148,10 @@ def sigint_guard() -> Iterator[None]:
         yield
         return
     previous = signal.getsignal(signal.SIGINT)
-    if previous is not signal.default_int_handler and previous is not _note_sigint:
+    if previous not in (signal.default_int_handler, _interrupt_unless_ignored, _note_sigint):
         yield
         return
-    if previous is signal.default_int_handler:
+    if previous is not _note_sigint:
         _SIGINT_SEEN = False
     signal.signal(signal.SIGINT, _note_sigint)
     try:
@@ -343,7 +363,7 @@ def _die_with_parent(parent_pid: int) -> None:
         os._exit(1)
 
 
-_STOP_SIGNAL: dict = {"signal": None}
+_STOP_SIGNAL: dict = {"signal": None, "ignore_plain_sigint": False}
 
 
 def stop_signal() -> str | None:
@@ -357,7 +377,9 @@ def terminate_as_interrupt() -> Iterator[None]:
 
     The handler re-sends SIGINT to this process, so whatever handles Ctrl-C at that moment
     (finish the species in flight, keep finished results, stop the pool) handles SIGTERM too;
-    :func:`stop_signal` then says it was SIGTERM.  Main thread only; a no-op elsewhere.
+    :func:`stop_signal` then says it was SIGTERM.  A process started with SIGINT
+    ignored (a background job) still stops on SIGTERM; a plain SIGINT stays ignored
+    there.  Main thread only; a no-op elsewhere.
     """
     if threading.current_thread() is not threading.main_thread():
         yield
@@ -369,10 +391,17 @@ def terminate_as_interrupt() -> Iterator[None]:
         os.kill(os.getpid(), signal.SIGINT)
 
     previous = signal.signal(signal.SIGTERM, on_term)
+    previous_int = signal.getsignal(signal.SIGINT)
+    if previous_int == signal.SIG_IGN:
+        _STOP_SIGNAL["ignore_plain_sigint"] = True
+        signal.signal(signal.SIGINT, _interrupt_unless_ignored)
     try:
         yield
     finally:
         signal.signal(signal.SIGTERM, previous)
+        if previous_int == signal.SIG_IGN:
+            signal.signal(signal.SIGINT, signal.SIG_IGN)
+            _STOP_SIGNAL["ignore_plain_sigint"] = False
 
 
 # -- Dask ------------------------------------------------------------------------------------
