@@ -127,9 +127,8 @@ def centre_torsion_seeds(mol: Chem.Mol, conf_ids: list[int], steps: int) -> list
     """
     if steps <= 0:
         return []
-    centres = [a for a in mol.GetAtoms() if a.GetSymbol() == "C" and a.GetFormalCharge() == 1]
     dihedrals = []
-    for centre in centres:
+    for centre in cationic_carbons(mol):
         for bond in centre.GetBonds():
             other = bond.GetOtherAtom(centre)
             if (bond.IsInRing() or bond.GetBondType() != Chem.BondType.SINGLE or other.GetDegree() < 2
@@ -151,6 +150,11 @@ def centre_torsion_seeds(mol: Chem.Mol, conf_ids: list[int], steps: int) -> list
     return seeds
 
 
+def cationic_carbons(mol: Chem.Mol) -> list[Chem.Atom]:
+    """The carbons of formal charge +1 (the carbenium centres)."""
+    return [a for a in mol.GetAtoms() if a.GetSymbol() == "C" and a.GetFormalCharge() == 1]
+
+
 def has_cationic_carbon(smiles: str) -> bool:
     """True when the species has a carbon of formal charge +1: the only species the torsion seeds touch.
 
@@ -158,11 +162,11 @@ def has_cationic_carbon(smiles: str) -> bool:
     (True, False, False)
     """
     mol = Chem.MolFromSmiles(smiles)
-    return mol is not None and any(a.GetSymbol() == "C" and a.GetFormalCharge() == 1 for a in mol.GetAtoms())
+    return mol is not None and bool(cationic_carbons(mol))
 
 
 def _embed_through_adduct(mol: Chem.Mol, count: int, params) -> list[np.ndarray]:
-    centres = [a.GetIdx() for a in mol.GetAtoms() if a.GetSymbol() == "C" and a.GetFormalCharge() == 1]
+    centres = [a.GetIdx() for a in cationic_carbons(mol)]
     if len(centres) != 1:
         return []
     adduct = Chem.RWMol(mol)

@@ -160,13 +160,13 @@ SCREENING_FMAX = 0.05
 def species_key(smiles: str, charge: int, multiplicity: int, settings: Settings) -> str:
     """SHA-256 of everything that determines a species result."""
     dumped = settings.model_dump(mode="json")
-    carbocation = has_cationic_carbon(smiles)
     for path, neutral in KEY_NEUTRAL_SETTINGS.items():
         *parents, name = path.split(".")
         holder = dumped
         for parent in parents:
             holder = holder.get(parent, {})
-        if holder.get(name, neutral) == neutral or (path in CARBOCATION_ONLY_SETTINGS and not carbocation):
+        if holder.get(name, neutral) == neutral or (path in CARBOCATION_ONLY_SETTINGS
+                                                    and not has_cationic_carbon(smiles)):
             holder.pop(name, None)
     payload = {
         "smiles": smiles, "charge": int(charge), "multiplicity": int(multiplicity),
